@@ -1,0 +1,1 @@
+"""One module per `ejecta` subcommand: each has add_arguments(parser) and run(args) -> exit code."""
