@@ -15,7 +15,7 @@ from typing import Any, Literal
 
 from monitor.errors import ConfigError, PhysicsError
 from monitor.physics.gas import canonical_gas
-from monitor.units import STANDARD_ATMOSPHERE_PA, parse_pressure, parse_quantity
+from monitor.units import parse_pressure, parse_quantity
 
 RIG_FORMAT_VERSION = 1
 RigKind = Literal["stand", "hover_platform"]
@@ -143,6 +143,10 @@ class _Table:
             raise ConfigError(self.key(name), value, "one of " + ", ".join(repr(o) for o in options), self.source)
         return value
 
+    def fail(self, name: str, expected: str) -> ConfigError:
+        """The error for key `name` of this table, with the value found there."""
+        return ConfigError(self.key(name), self.data.get(name), expected, self.source)
+
     def finish(self) -> None:
         unknown = sorted(set(self.data) - self.used)
         if unknown:
@@ -206,9 +210,21 @@ def parse_rig(text: str, source: str | None = None) -> Rig:
     if not isinstance(src, dict):
         raise ConfigError("source", src, "a table ([source])", source)
     return Rig(
-        name=name.strip(), kind=kind, gas=gas, gas_model=gas_model, ambient_pressure_pa=ambient_pa,
-        ambient_temperature_k=ambient_t_k, tank=tank, regulator=regulator, nozzle=nozzle, vehicle=vehicle,
-        source_path=source, text=text, channels=tuple(channels), alerts=tuple(alerts), source=src,
+        name=name.strip(),
+        kind=kind,
+        gas=gas,
+        gas_model=gas_model,
+        ambient_pressure_pa=ambient_pa,
+        ambient_temperature_k=ambient_t_k,
+        tank=tank,
+        regulator=regulator,
+        nozzle=nozzle,
+        vehicle=vehicle,
+        source_path=source,
+        text=text,
+        channels=tuple(channels),
+        alerts=tuple(alerts),
+        source=src,
     )
 
 
@@ -223,11 +239,11 @@ def _tank(t: _Table, ambient_pa: float) -> TankSpec:
         polytropic_exponent=t.number("polytropic_exponent", None, low=1.0, high=2.0),
     )
     if spec.expansion == "polytropic" and spec.polytropic_exponent is None:
-        raise ConfigError(t.key("polytropic_exponent"), None, "an exponent n from 1 to 2 when expansion is 'polytropic'", t.source)
+        raise t.fail("polytropic_exponent", "an exponent n from 1 to 2 when expansion is 'polytropic'")
     if spec.fill_pressure_pa > spec.meop_pa:
-        raise ConfigError(t.key("fill_pressure"), t.data["fill_pressure"], f"at most the MEOP ({t.data['meop']})", t.source)
+        raise t.fail("fill_pressure", f"at most the MEOP ({t.data['meop']})")
     if spec.proof_pressure_pa is not None and spec.proof_pressure_pa < spec.meop_pa:
-        raise ConfigError(t.key("proof_pressure"), t.data["proof_pressure"], "at least the MEOP", t.source)
+        raise t.fail("proof_pressure", "at least the MEOP")
     t.finish()
     return spec
 
@@ -238,11 +254,11 @@ def _regulator(t: _Table, ambient_pa: float, tank: TankSpec) -> RegulatorSpec:
         min_inlet_pressure_pa=t.pressure("min_inlet_pressure", ambient_pa),
     )
     if spec.set_pressure_pa <= ambient_pa:
-        raise ConfigError(t.key("set_pressure"), t.data["set_pressure"], "a set point above ambient pressure", t.source)
+        raise t.fail("set_pressure", "a set point above ambient pressure")
     if spec.min_inlet_pressure_pa <= spec.set_pressure_pa:
-        raise ConfigError(t.key("min_inlet_pressure"), t.data["min_inlet_pressure"], "a pressure above the set point", t.source)
+        raise t.fail("min_inlet_pressure", "a pressure above the set point")
     if spec.min_inlet_pressure_pa >= tank.fill_pressure_pa:
-        raise ConfigError(t.key("min_inlet_pressure"), t.data["min_inlet_pressure"], "a pressure below the tank's fill pressure", t.source)
+        raise t.fail("min_inlet_pressure", "a pressure below the tank's fill pressure")
     t.finish()
     return spec
 
@@ -260,9 +276,9 @@ def _nozzle(t: _Table) -> NozzleSpec:
         count=count,
     )
     if spec.exit_diameter_m < spec.throat_diameter_m:
-        raise ConfigError(t.key("exit_diameter"), t.data["exit_diameter"], "at least the throat diameter", t.source)
+        raise t.fail("exit_diameter", "at least the throat diameter")
     if not 0.0 <= spec.divergence_half_angle_rad < math.radians(45.0):
-        raise ConfigError(t.key("divergence_half_angle"), t.data.get("divergence_half_angle"), "an angle from 0 to 45 deg", t.source)
+        raise t.fail("divergence_half_angle", "an angle from 0 to 45 deg")
     t.finish()
     return spec
 

@@ -127,9 +127,7 @@ def parse_pressure(value: object, key: str, ambient_pa: float, source: str | Non
     elif reference in _ABSOLUTE_WORDS:
         offset = 0.0
     else:
-        raise ConfigError(
-            key, value, "a pressure that says 'gauge' or 'abs' after its unit, such as '300 bar gauge'", source
-        )
+        raise ConfigError(key, value, "a pressure that says 'gauge' or 'abs' after its unit, such as '300 bar gauge'", source)
     pressure_pa = parse_quantity(" ".join(words[:-1]), "pressure", key, source) + offset
     if pressure_pa < 0.0:
         raise ConfigError(key, value, "an absolute pressure of zero or more", source)

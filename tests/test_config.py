@@ -59,7 +59,12 @@ def test_minimal_rig_gets_documented_defaults():
         ('fill_pressure = "200 bar gauge"', 'fill_pressure = "300 bar gauge"', "tank.fill_pressure", "MEOP"),
         ('gas = "N2"', 'gas = "xenon"', "rig.gas", "nitrogen"),
         ('kind = "stand"', 'kind = "rocket"', "rig.kind", "hover_platform"),
-        ('min_inlet_pressure = "10 bar gauge"', 'min_inlet_pressure = "5 bar gauge"', "regulator.min_inlet_pressure", "above the set point"),
+        (
+            'min_inlet_pressure = "10 bar gauge"',
+            'min_inlet_pressure = "5 bar gauge"',
+            "regulator.min_inlet_pressure",
+            "above the set point",
+        ),
         ('exit_diameter = "2 mm"', 'exit_diameter = "0.5 mm"', "nozzle.exit_diameter", "throat"),
         ('exit_diameter = "2 mm"', 'exit_diameter = "2 mm"\ncount = 0', "nozzle.count", "whole number"),
         ('exit_diameter = "2 mm"', 'exit_diameter = "2 mm"\nthroat_dia = "1 mm"', "nozzle.throat_dia", "typo"),

@@ -152,48 +152,66 @@ def gas_state(gas: str, model: GasModelName = "real", **inputs: object) -> GasSt
     return _real_state(gas, pair, a, b)
 
 
+@lru_cache(maxsize=None)
+def _abstract_state(fluid: str):
+    return _cp().AbstractState("HEOS", fluid)
+
+
+_PARAMS = {"P": "iP", "T": "iT", "D": "iDmass", "H": "iHmass", "S": "iSmass"}
+
+
 def _real_state(gas: str, pair: tuple[str, str], a: np.ndarray, b: np.ndarray) -> GasState:
+    """One equation-of-state flash per point through CoolProp's AbstractState, then every output from it."""
+    import CoolProp
+
     fluid = _COOLPROP_NAMES[gas]
-    cp = _cp()
+    state = _abstract_state(fluid)
     shape = a.shape
     a1, b1 = np.atleast_1d(a).ravel(), np.atleast_1d(b).ravel()
-    outputs = {}
-    for out in ("P", "T", "D", "H", "S", "CPMASS", "CVMASS", "A", "Z", "Phase"):
+    key_a, key_b = (getattr(CoolProp, _PARAMS[k]) for k in pair)
+    input_pair, first, _ = _cp().generate_update_pair(key_a, 1.0, key_b, 2.0)
+    swapped = first != 1.0
+    out = np.empty((a1.size, 9))
+    condensed = (CoolProp.iphase_liquid, CoolProp.iphase_twophase)
+    for i in range(a1.size):
+        x, y = (b1[i], a1[i]) if swapped else (a1[i], b1[i])
         try:
-            values = cp.PropsSI(out, pair[0], a1, pair[1], b1, fluid)
+            state.update(input_pair, x, y)
+            phase = state.phase()
+            out[i] = (
+                state.p(),
+                state.T(),
+                state.rhomass(),
+                state.hmass(),
+                state.smass(),
+                state.cpmass() / state.cvmass(),
+                state.speed_sound(),
+                state.compressibility_factor(),
+                1.0 if phase in condensed else 0.0,
+            )
         except ValueError as exc:
-            raise PhysicsError(f"{gas}: state {pair[0]}={a1}, {pair[1]}={b1} is outside the equation of state: {exc}") from exc
-        outputs[out] = np.asarray(values, dtype=float)
-    bad = ~np.isfinite(np.stack([outputs[k] for k in ("P", "T", "D", "A")]))
-    if bad.any():
-        index = int(np.argwhere(bad.any(axis=0))[0][0])
+            if "two-phase" in str(exc) or "twophase" in str(exc):
+                raise PhysicsError(
+                    f"{gas}: liquid or two-phase at {pair[0]}={a1[i]:.6g}, {pair[1]}={b1[i]:.6g}; "
+                    "ejecta's gauges model single-phase gas only"
+                ) from exc
+            raise PhysicsError(
+                f"{gas}: no real-gas state at {pair[0]}={a1[i]:.6g}, {pair[1]}={b1[i]:.6g} (outside the equation of state: {exc})"
+            ) from exc
+    _reject_condensed(gas, out[:, 8], out[:, 0], out[:, 1])
+    if not np.all(np.isfinite(out[:, :8])):
+        index = int(np.argmax(~np.isfinite(out[:, :8]).any(axis=1)))
         raise PhysicsError(
             f"{gas}: no real-gas state at {pair[0]}={a1[index]:.6g}, {pair[1]}={b1[index]:.6g} "
             "(outside the equation of state's range)"
         )
-    _reject_condensed(gas, outputs["Phase"], outputs["P"], outputs["T"])
-    return GasState(
-        pressure_pa=outputs["P"].reshape(shape),
-        temperature_k=outputs["T"].reshape(shape),
-        density_kg_m3=outputs["D"].reshape(shape),
-        enthalpy_j_kg=outputs["H"].reshape(shape),
-        entropy_j_kg_k=outputs["S"].reshape(shape),
-        gamma=(outputs["CPMASS"] / outputs["CVMASS"]).reshape(shape),
-        speed_of_sound_m_s=outputs["A"].reshape(shape),
-        compressibility=outputs["Z"].reshape(shape),
-    )
+    columns = [out[:, k].reshape(shape) for k in range(8)]
+    return GasState(*columns)
 
 
-@lru_cache(maxsize=None)
-def _phase_codes() -> tuple[float, ...]:
-    cp = _cp()
-    return tuple(float(cp.get_phase_index(name)) for name in ("phase_liquid", "phase_twophase"))
-
-
-def _reject_condensed(gas: str, phase: np.ndarray, pressure: np.ndarray, temperature: np.ndarray) -> None:
-    condensed = np.isin(phase, _phase_codes())
-    if condensed.any():
-        index = int(np.argmax(condensed))
+def _reject_condensed(gas: str, condensed: np.ndarray, pressure: np.ndarray, temperature: np.ndarray) -> None:
+    if np.any(condensed > 0.0):
+        index = int(np.argmax(condensed > 0.0))
         raise PhysicsError(
             f"{gas}: liquid or two-phase at {pressure[index] / 1e5:.4g} bar abs, {temperature[index]:.5g} K; "
             "ejecta's gauges model single-phase gas only"
