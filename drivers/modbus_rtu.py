@@ -1,0 +1,488 @@
+"""Modbus RTU driver: polls holding and input registers of serial units and turns each poll into one raw row.
+
+Framing, CRC and PDU encoding come from pymodbus (FramerRTU, DecodePDU, the read-register requests); the
+serial port is pyserial's. This module adds the rig-file table, the grouping of registers into as few
+requests as possible, register decoding, poll pacing on the injected clock and link-loss bookkeeping.
+"""
+
+from __future__ import annotations
+
+import dataclasses
+import math
+import re
+import struct
+from collections.abc import Sequence
+from dataclasses import dataclass
+from typing import Any
+
+import numpy as np
+import pint
+import serial
+from pymodbus.framer import FramerRTU
+from pymodbus.pdu import DecodePDU
+from pymodbus.pdu.register_message import ReadHoldingRegistersRequest, ReadInputRegistersRequest
+from serial.serialutil import Timeout
+
+from drivers.base import Driver, LineStatus, RawBatch
+from monitor.clock import Clock
+from monitor.config import Rig, _Table
+from monitor.errors import ConfigError, SourceError
+from monitor.samples import LinkEvent
+from monitor.units import UREG
+
+try:  # pyserial lets termios.error through from tcflush/tcsetattr on POSIX ports
+    import termios
+
+    _PORT_ERRORS: tuple[type[Exception], ...] = (serial.SerialException, OSError, termios.error)
+except ImportError:  # pragma: no cover - not POSIX
+    _PORT_ERRORS = (serial.SerialException, OSError)
+
+# Register type -> (registers it spans, struct format of the big-endian bytes).
+REGISTER_TYPES: dict[str, tuple[int, str]] = {
+    "int16": (1, ">h"), "uint16": (1, ">H"), "int32": (2, ">i"), "uint32": (2, ">I"), "float32": (2, ">f"),
+}
+WORD_ORDERS = ("big", "little")
+_PARITY = {"none": serial.PARITY_NONE, "even": serial.PARITY_EVEN, "odd": serial.PARITY_ODD}
+_TABLE_CODE = {"holding": "hr", "input": "ir"}
+_REQUEST_CLASS = {"holding": ReadHoldingRegistersRequest, "input": ReadInputRegistersRequest}
+# Quantity of registers one read may ask for (Modbus Application Protocol V1.1b3, 6.3/6.4: 1 to 125).
+MAX_REGISTERS_PER_REQUEST = ReadHoldingRegistersRequest.MAX_COUNT
+REOPEN_INTERVAL_S = 0.5  # a vanished port is tried again at most this often
+_READ_SLICE_S = 0.005  # the port's own read timeout; the per-request deadline is kept by a pyserial Timeout
+_FIELD_NAME = re.compile(r"^[A-Za-z_][A-Za-z0-9_]*$")
+_Outcome = tuple[LineStatus, "list[int] | None", bytes]  # status, registers (None if bad), record text
+
+
+def _is_word(value: object) -> bool:
+    return isinstance(value, int) and not isinstance(value, bool) and 0 <= value <= 0xFFFF
+
+
+def decode_registers(registers: Sequence[int], type: str, word_order: str = "big") -> float:
+    """The number held in one or two 16-bit Modbus registers.
+
+    Each register is sent high byte first (Modbus Application Protocol V1.1b3, 4.2: big-endian data items).
+    Which register of a 32-bit pair holds the high word is not set by Modbus; devices differ, hence
+    word_order. float32 is IEEE 754-2008 binary32; int16/int32 are two's complement.
+
+    Args:
+        registers: the register values as read, each 0..65535; one for 16-bit types, two for 32-bit ones.
+        type: int16 | uint16 | int32 | uint32 | float32.
+        word_order: "big" (first register holds the high word) or "little" (first holds the low word).
+
+    Returns:
+        The value as a float (NaN or inf when a float32 on the wire is one).
+
+    Raises:
+        ValueError: unknown type or word order, wrong number of registers, or a register out of 0..65535.
+    """
+    if type not in REGISTER_TYPES:
+        raise ValueError(f"type = {type!r}: expected one of {', '.join(REGISTER_TYPES)}")
+    if word_order not in WORD_ORDERS:
+        raise ValueError(f"word_order = {word_order!r}: expected 'big' or 'little'")
+    count, fmt = REGISTER_TYPES[type]
+    words = list(registers)
+    if len(words) != count or not all(_is_word(w) for w in words):
+        raise ValueError(f"registers = {registers!r}: expected {count} integer(s) from 0 to 65535 for {type}")
+    if word_order == "little":
+        words.reverse()
+    return float(struct.unpack(fmt, struct.pack(f">{count}H", *words))[0])
+
+
+@dataclass(frozen=True)
+class RegisterSpec:
+    """One value read from a unit: where it lives, how to decode it, and its scaling raw * scale + offset."""
+
+    field: str
+    unit_id: int
+    table: str  # "holding" | "input"
+    address: int  # zero-based, as on the wire
+    type: str
+    word_order: str
+    scale: float
+    offset: float
+
+    @property
+    def count(self) -> int:
+        return REGISTER_TYPES[self.type][0]
+
+
+@dataclass(frozen=True)
+class ReadRequest:
+    """One read of contiguous registers of one unit and table; members index ModbusRtuConfig.registers."""
+
+    unit_id: int
+    table: str
+    address: int
+    count: int
+    members: tuple[int, ...]
+
+
+@dataclass(frozen=True)
+class ModbusRtuConfig:
+    """The [source] table of a Modbus RTU rig, checked; times in seconds."""
+
+    port: str
+    baud: int
+    parity: str  # none | even | odd
+    stop_bits: int
+    poll_period_s: float
+    timeout_s: float
+    registers: tuple[RegisterSpec, ...]
+    lost_after_polls: int = 3  # consecutive failed polls before a "lost" event
+    source_path: str | None = None
+
+    @property
+    def fields(self) -> tuple[str, ...]:
+        return tuple(r.field for r in self.registers)
+
+    @property
+    def char_time_s(self) -> float:
+        """Time one character takes on the line: start bit, 8 data bits, parity bit if any, stop bits."""
+        bits = 1 + 8 + (0 if self.parity == "none" else 1) + self.stop_bits
+        return bits / self.baud
+
+    @property
+    def frame_gap_s(self) -> float:
+        """Silence kept before each request: 3.5 character times, fixed at 1.75 ms above 19200 baud.
+
+        Source: MODBUS over Serial Line Specification and Implementation Guide V1.02, 2.5.1.1 (from memory).
+        """
+        return 3.5 * self.char_time_s if self.baud <= 19200 else 1.75e-3
+
+    @classmethod
+    def from_source_table(cls, table: dict[str, Any], source_path: str | None = None) -> "ModbusRtuConfig":
+        """Check a [source] table whose driver is "modbus_rtu".
+
+        Raises:
+            ConfigError: naming the key (e.g. "source.registers[1].type", registers counted from 0), the
+                value and what was expected, for any missing, unknown or wrong key.
+        """
+        t = _Table(table, "source", source_path)
+        t.choice("driver", ("modbus_rtu",))
+        port = t.raw("port")
+        if not isinstance(port, str) or not port.strip():
+            raise ConfigError(t.key("port"), port, "a serial device path or pyserial URL", source_path)
+        baud = _integer(t, "baud", 19200, 50, 4_000_000)
+        parity = t.choice("parity", tuple(_PARITY), "even")
+        stop_bits = _integer(t, "stop_bits", 1, 1, 2)
+        rate_hz = _rate_hz(t, "poll_rate", "10 Hz")
+        timeout_s = t.quantity("timeout", "time", "0.1 s")
+        if timeout_s > 10.0:
+            raise ConfigError(t.key("timeout"), t.data["timeout"], "a time from 0 to 10 s", t.source)
+        tables = t.raw("registers")
+        if not isinstance(tables, list) or not tables or not all(isinstance(x, dict) for x in tables):
+            raise ConfigError(t.key("registers"), tables, "one or more [[source.registers]] tables", t.source)
+        registers: list[RegisterSpec] = []
+        for index, raw in enumerate(tables):
+            spec = _register(_Table(raw, f"source.registers[{index}]", source_path))
+            if spec.field in (r.field for r in registers):
+                key = f"source.registers[{index}].field"
+                raise ConfigError(key, spec.field, "a field name no other register uses", source_path)
+            registers.append(spec)
+        t.finish()
+        return cls(
+            port=port.strip(), baud=baud, parity=parity, stop_bits=stop_bits, poll_period_s=1.0 / rate_hz,
+            timeout_s=timeout_s, registers=tuple(registers), source_path=source_path,
+        )
+
+
+def _integer(t: _Table, name: str, default: Any, low: int, high: int) -> int:
+    value = t.raw(name, default)
+    if isinstance(value, bool) or not isinstance(value, int) or not low <= value <= high:
+        raise ConfigError(t.key(name), value, f"a whole number from {low} to {high}", t.source)
+    return value
+
+
+def _finite(t: _Table, name: str, default: float) -> float:
+    value = t.raw(name, default)
+    if isinstance(value, bool) or not isinstance(value, (int, float)) or not math.isfinite(value):
+        raise ConfigError(t.key(name), value, "a finite number", t.source)
+    return float(value)
+
+
+def _rate_hz(t: _Table, name: str, default: str) -> float:
+    value = t.raw(name, default)
+    if not isinstance(value, str):
+        raise ConfigError(t.key(name), value, "a rate with its unit, as a string such as '20 Hz'", t.source)
+    try:
+        rate_hz = float(UREG.Quantity(value.strip()).to("hertz").magnitude)
+    except (pint.errors.PintError, ValueError, TypeError, AttributeError, AssertionError) as exc:
+        raise ConfigError(t.key(name), value, f"a rate such as '20 Hz' ({exc})", t.source) from exc
+    if not (math.isfinite(rate_hz) and 0.0 < rate_hz <= 1000.0):
+        raise ConfigError(t.key(name), value, "a rate above 0 and at most 1000 Hz", t.source)
+    return rate_hz
+
+
+def _register(t: _Table) -> RegisterSpec:
+    name = t.raw("field")
+    if not isinstance(name, str) or not _FIELD_NAME.match(name):
+        raise ConfigError(t.key("field"), name, "a name of letters, digits and '_', like 'P_tank'", t.source)
+    type_ = t.choice("type", tuple(REGISTER_TYPES))
+    count = REGISTER_TYPES[type_][0]
+    address = _integer(t, "address", ..., 0, 0xFFFF - (count - 1))
+    spec = RegisterSpec(
+        field=name,
+        unit_id=_integer(t, "unit_id", ..., 1, 247),  # 0 is broadcast (no answer), 248-255 reserved
+        table=t.choice("table", tuple(_TABLE_CODE), "holding"),
+        address=address,
+        type=type_,
+        word_order=t.choice("word_order", WORD_ORDERS, "big"),
+        scale=_finite(t, "scale", 1.0),
+        offset=_finite(t, "offset", 0.0),
+    )
+    if spec.scale == 0.0:
+        raise ConfigError(t.key("scale"), t.data["scale"], "a finite, non-zero factor", t.source)
+    t.finish()
+    return spec
+
+
+def plan_requests(
+    registers: Sequence[RegisterSpec], max_count: int = MAX_REGISTERS_PER_REQUEST
+) -> tuple[ReadRequest, ...]:
+    """Group registers of one unit and table that touch or overlap into single reads of at most max_count.
+
+    Gaps are never bridged: a register between two wanted ones may not exist on the device, and reading it
+    would make the unit answer with an exception instead of the values.
+    """
+    def place(i: int) -> tuple[int, str, int]:
+        return registers[i].unit_id, registers[i].table, registers[i].address
+
+    order = sorted(range(len(registers)), key=place)
+    plan: list[ReadRequest] = []
+    for i in order:
+        r = registers[i]
+        last = plan[-1] if plan else None
+        if (last is not None and (last.unit_id, last.table) == (r.unit_id, r.table)
+                and r.address <= last.address + last.count
+                and max(last.address + last.count, r.address + r.count) - last.address <= max_count):
+            end = max(last.address + last.count, r.address + r.count)
+            plan[-1] = ReadRequest(r.unit_id, r.table, last.address, end - last.address, (*last.members, i))
+        else:
+            plan.append(ReadRequest(r.unit_id, r.table, r.address, r.count, (i,)))
+    return tuple(plan)
+
+
+@dataclass
+class ModbusLinkStats:
+    """Running counts of what happened on the line since the driver was built."""
+
+    polls: int = 0
+    answered_polls: int = 0  # polls in which every request got a good answer
+    no_response: int = 0  # requests that got nothing back
+    crc_errors: int = 0  # answers whose CRC did not match
+    exception_responses: int = 0  # answers that were Modbus exceptions (illegal address, device failure, ...)
+    malformed: int = 0  # answers cut short, from another unit, or not the registers asked for
+    port_failures: int = 0
+    reopen_attempts: int = 0
+
+
+class ModbusRtuDriver(Driver):
+    """Polls every configured register once per poll period; one RawBatch row per poll.
+
+    A row's line is a text record of what came off the wire, e.g. b"u1 hr0=0x4120,0x0000 u2 ir4=no_response".
+    A row is OK only when every request of the poll got a good answer; otherwise its status is that of the
+    first failure (NO_RESPONSE: nothing came back; GARBAGE: bad CRC, exception response, or malformed) and
+    all its values are NaN. A poll waits at most (timeout + the answer's time on the wire) per request.
+    """
+
+    def __init__(self, config: ModbusRtuConfig, clock: Clock):
+        self.config = config
+        self.fields = config.fields
+        self.requests = plan_requests(config.registers)
+        self.stats = ModbusLinkStats()
+        self._clock = clock
+        self._decoder = DecodePDU(False)
+        self._framer = FramerRTU(self._decoder)
+        self._port: Any = None
+        self._opened_once = False
+        self._next_poll_s = 0.0
+        self._next_reopen_s = 0.0
+        self._failed_polls = 0
+        self._link = "unknown"  # unknown | up | lost
+        self._events: list[LinkEvent] = []
+
+    @classmethod
+    def from_rig(cls, rig: Rig, clock: Clock, port: str | None = None) -> "ModbusRtuDriver":
+        """Build the driver from the rig's [source] table; `port` (device path or pyserial URL) overrides it.
+
+        Raises:
+            ConfigError: the [source] table is wrong (the message names the key), or `port` is empty.
+        """
+        config = ModbusRtuConfig.from_source_table(rig.source, rig.source_path)
+        if port is not None:
+            if not isinstance(port, str) or not port.strip():
+                raise ConfigError("port", port, "a serial device path or pyserial URL")
+            config = dataclasses.replace(config, port=port.strip())
+        return cls(config, clock)
+
+    def _open_port(self) -> Any:
+        c = self.config
+        return serial.serial_for_url(
+            c.port, baudrate=c.baud, bytesize=serial.EIGHTBITS, parity=_PARITY[c.parity],
+            stopbits=c.stop_bits, timeout=_READ_SLICE_S, write_timeout=c.timeout_s, exclusive=True,
+        )
+
+    def _open(self) -> None:
+        if self._port is not None:
+            return
+        try:
+            self._port = self._open_port()
+        except (*_PORT_ERRORS, ValueError) as exc:
+            raise SourceError(f"Modbus RTU port {self.config.port!r} cannot be opened: {exc}") from exc
+        self._opened_once = True
+        self._next_poll_s = self._clock.now()
+
+    def _close(self) -> None:
+        self._drop_port()
+
+    def _drop_port(self) -> None:
+        port, self._port = self._port, None
+        if port is not None:
+            try:
+                port.close()
+            except _PORT_ERRORS:
+                pass
+
+    def _read(self, timeout_s: float) -> RawBatch:
+        if not self._opened_once:
+            self._open()
+        now = self._clock.now()
+        deadline = now + max(timeout_s, 0.0)
+        while True:
+            if self._port is None and now >= self._next_reopen_s - 1e-9:
+                self._try_reopen(now)
+            if self._port is not None and now >= self._next_poll_s - 1e-9:
+                return self._batch([self._poll()])
+            wake = self._next_poll_s if self._port is not None else self._next_reopen_s
+            if now >= deadline:
+                return self._batch([])
+            self._clock.sleep(min(wake, deadline) - now)
+            now = self._clock.now()
+
+    def _batch(self, rows: list[tuple[float, bytes, LineStatus, np.ndarray]]) -> RawBatch:
+        events, self._events = self._events, []
+        if not rows:
+            return RawBatch.empty(self.fields, events)
+        return RawBatch(
+            t_s=np.array([r[0] for r in rows], dtype=float), lines=[r[1] for r in rows],
+            status=np.array([r[2] for r in rows], dtype=np.uint8), fields=self.fields,
+            values=np.vstack([r[3] for r in rows]), events=events,
+        )
+
+    def _poll(self) -> tuple[float, bytes, LineStatus, np.ndarray]:
+        values = np.full(len(self.fields), np.nan)
+        parts: list[bytes] = []
+        status = LineStatus.OK
+        silent: list[int] = []
+        for request in self.requests:
+            if self._port is None:
+                outcome, registers, text = LineStatus.NO_RESPONSE, None, b"not_sent"
+            else:
+                outcome, registers, text = self._transact(request)
+            parts.append(f"u{request.unit_id} {_TABLE_CODE[request.table]}{request.address}=".encode() + text)
+            if registers is None:
+                status = outcome if status == LineStatus.OK else status
+                silent.append(request.unit_id)
+                continue
+            for i in request.members:
+                spec = self.config.registers[i]
+                start = spec.address - request.address
+                raw = decode_registers(registers[start:start + spec.count], spec.type, spec.word_order)
+                values[i] = raw * spec.scale + spec.offset
+        t_s = self._clock.now()
+        # Keep the cadence; after a slow poll or a late caller, poll again at once but never in a burst.
+        self._next_poll_s = max(self._next_poll_s + self.config.poll_period_s, t_s)
+        self._account(status, t_s, silent)
+        if status != LineStatus.OK:
+            values[:] = np.nan
+        return t_s, b" ".join(parts), status, values
+
+    def _account(self, status: LineStatus, t_s: float, silent: list[int]) -> None:
+        self.stats.polls += 1
+        if status == LineStatus.OK:
+            self.stats.answered_polls += 1
+            self._failed_polls = 0
+            if self._link != "up":
+                self._link = "up"
+                detail = f"Modbus units answering on {self.config.port}"
+                self._events.append(LinkEvent(t_s, "connected", detail))
+            return
+        self._failed_polls += 1
+        if self._failed_polls >= self.config.lost_after_polls and self._link != "lost":
+            self._link = "lost"
+            units = ", ".join(str(u) for u in sorted(set(silent)))
+            detail = f"unit(s) {units} on {self.config.port}: {self._failed_polls} polls in a row failed"
+            self._events.append(LinkEvent(t_s, "lost", detail))
+
+    def _transact(self, request: ReadRequest) -> _Outcome:
+        """Send one read and wait for its answer; (status, registers or None, text for the raw record)."""
+        kind = _REQUEST_CLASS[request.table]
+        pdu = kind(address=request.address, count=request.count, dev_id=request.unit_id)
+        frame = self._framer.buildFrame(pdu)
+        expected_bytes = 5 + 2 * request.count  # unit, function, byte count, data, CRC
+        self._clock.sleep(self.config.frame_gap_s)
+        try:
+            self._port.reset_input_buffer()  # a late answer to an earlier request must not pass for this one
+            self._port.write(frame)
+            received = self._receive(expected_bytes)
+        except serial.SerialTimeoutException:
+            self.stats.no_response += 1
+            return LineStatus.NO_RESPONSE, None, b"write_timeout"
+        except _PORT_ERRORS as exc:
+            self._port_failed(exc)
+            return LineStatus.NO_RESPONSE, None, b"port_error"
+        return self._interpret(request, pdu.function_code, received)
+
+    def _receive(self, expected_bytes: int) -> bytes:
+        timer = Timeout(self.config.timeout_s + expected_bytes * self.config.char_time_s)
+        received = bytearray()
+        while True:
+            chunk = self._port.read(max(1, self._port.in_waiting))
+            received += chunk
+            if chunk and self._framer.decode(bytes(received))[0]:
+                return bytes(received)
+            if timer.expired() or len(received) >= FramerRTU.MAX_SIZE:
+                return bytes(received)
+
+    def _interpret(self, request: ReadRequest, function_code: int, received: bytes) -> _Outcome:
+        if not received:
+            self.stats.no_response += 1
+            return LineStatus.NO_RESPONSE, None, b"no_response"
+        wire = received.hex().encode()
+        used, unit_id, _tid, pdu_bytes = self._framer.decode(received)
+        if not used:
+            self.stats.malformed += 1
+            return LineStatus.GARBAGE, None, b"cut_short:" + wire
+        if not pdu_bytes:
+            self.stats.crc_errors += 1
+            return LineStatus.GARBAGE, None, b"crc_error:" + wire
+        answer = self._decoder.decode(pdu_bytes) if unit_id == request.unit_id else None
+        if answer is not None and answer.isError():
+            self.stats.exception_responses += 1
+            return LineStatus.GARBAGE, None, f"exception_{answer.exception_code:02x}:".encode() + wire
+        if answer is None or answer.function_code != function_code or len(answer.registers) != request.count:
+            self.stats.malformed += 1
+            return LineStatus.GARBAGE, None, b"unexpected:" + wire
+        registers = [int(r) for r in answer.registers]
+        return LineStatus.OK, registers, ",".join(f"0x{r:04X}" for r in registers).encode()
+
+    def _port_failed(self, exc: Exception) -> None:
+        self._drop_port()
+        self.stats.port_failures += 1
+        now = self._clock.now()
+        self._next_reopen_s = now + REOPEN_INTERVAL_S
+        if self._link != "lost":
+            self._link = "lost"
+            detail = f"port {self.config.port} failed ({exc}); reopening every {REOPEN_INTERVAL_S:g} s"
+            self._events.append(LinkEvent(now, "lost", detail))
+
+    def _try_reopen(self, now: float) -> None:
+        self._next_reopen_s = now + REOPEN_INTERVAL_S
+        self.stats.reopen_attempts += 1
+        try:
+            self._port = self._open_port()
+        except (*_PORT_ERRORS, ValueError):
+            return
+        self._next_poll_s = now
+        detail = f"port {self.config.port} reopened; waiting for an answer"
+        self._events.append(LinkEvent(now, "reconnecting", detail))
