@@ -21,7 +21,7 @@ RIG_FORMAT_VERSION = 1
 RigKind = Literal["stand", "hover_platform"]
 ExpansionModel = Literal["isothermal", "isentropic", "polytropic"]
 
-_SECTIONS = {"format", "rig", "tank", "regulator", "nozzle", "vehicle", "channels", "alerts", "source"}
+_SECTIONS = {"format", "rig", "tank", "regulator", "nozzle", "vehicle", "channels", "alerts", "source", "simulation"}
 
 
 @dataclass(frozen=True)
@@ -93,6 +93,7 @@ class Rig:
     channels: tuple[dict[str, Any], ...] = field(default_factory=tuple)  # raw tables, checked by calibration
     alerts: tuple[dict[str, Any], ...] = field(default_factory=tuple)  # raw tables, checked by the alert engine
     source: dict[str, Any] = field(default_factory=dict)  # raw table, checked by the source factory
+    simulation: dict[str, Any] = field(default_factory=dict)  # raw table, checked by the simulator
 
 
 class _Table:
@@ -209,6 +210,9 @@ def parse_rig(text: str, source: str | None = None) -> Rig:
     src = top.raw("source", {})
     if not isinstance(src, dict):
         raise ConfigError("source", src, "a table ([source])", source)
+    simulation = top.raw("simulation", {})
+    if not isinstance(simulation, dict):
+        raise ConfigError("simulation", simulation, "a table ([simulation])", source)
     return Rig(
         name=name.strip(),
         kind=kind,
@@ -225,6 +229,7 @@ def parse_rig(text: str, source: str | None = None) -> Rig:
         channels=tuple(channels),
         alerts=tuple(alerts),
         source=src,
+        simulation=simulation,
     )
 
 

@@ -103,3 +103,12 @@ def test_polytropic_needs_its_exponent():
         parse_rig(text)
     rig = parse_rig(text.replace('expansion = "polytropic"', 'expansion = "polytropic"\npolytropic_exponent = 1.2'))
     assert rig.tank.polytropic_exponent == 1.2
+
+
+def test_simulation_table_is_kept_raw_for_the_simulator():
+    rig = parse_rig(GOOD + '[simulation]\nseed = 3\n[[simulation.faults]]\nkind = "leak"\n', "x.toml")
+    assert rig.simulation == {"seed": 3, "faults": [{"kind": "leak"}]}
+    assert parse_rig(GOOD).simulation == {}
+    with pytest.raises(ConfigError) as info:
+        parse_rig(GOOD.replace("format = 1", "format = 1\nsimulation = 3"), "x.toml")
+    assert info.value.key == "simulation" and "a table" in str(info.value)
