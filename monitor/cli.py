@@ -13,6 +13,8 @@ from monitor.errors import MonitorError
 # so `ejecta --help` stays fast and a subcommand's heavy imports cost nothing to the others.
 COMMANDS: dict[str, tuple[str, str]] = {
     "predict": ("monitor.commands.predict", "predict what a rig will do: thrust, Isp, blowdown, delta-v, stored energy"),
+    "simulate": ("monitor.commands.simulate", "play a simulated rig's sensor lines on a pseudo-terminal, in real time"),
+    "record": ("monitor.commands.record", "acquire from the rig's sensors without a screen and record a run log"),
 }
 
 

@@ -137,7 +137,7 @@ def test_blowdown_conserves_mass_and_pressure_falls(fill_bar, set_bar, extra_bar
         [[0.0], np.cumsum(np.diff(blow.time_s) * (blow.mass_flow_kg_s[1:] + blow.mass_flow_kg_s[:-1]) / 2)]
     )
     # Two different quadratures of the same flow (t from dm/mdot, mass from mdot dt) agree to O(h^2).
-    np.testing.assert_allclose(integrated, expelled, rtol=1e-5, atol=1e-9)
+    np.testing.assert_allclose(integrated, expelled, rtol=1e-4, atol=1e-9)
     assert np.all(np.diff(blow.tank_pressure_pa) < 0)
     assert np.all(np.diff(blow.time_s) >= 0)
     assert blow.flow_end_s >= blow.regulator_dropout_s > 0
