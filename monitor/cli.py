@@ -15,6 +15,7 @@ COMMANDS: dict[str, tuple[str, str]] = {
     "predict": ("monitor.commands.predict", "predict what a rig will do: thrust, Isp, blowdown, delta-v, stored energy"),
     "simulate": ("monitor.commands.simulate", "play a simulated rig's sensor lines on a pseudo-terminal, in real time"),
     "record": ("monitor.commands.record", "acquire from the rig's sensors without a screen and record a run log"),
+    "import": ("monitor.commands.import_csv", "turn another system's CSV export into a run log"),
 }
 
 
