@@ -34,6 +34,7 @@ class HealthSnapshot:
     link_up: bool
     link_losses: int
     recent_events: tuple[LinkEvent, ...]
+    event_counts: dict[str, int]  # link-event kind -> count (gap, clock_backwards, mostly_garbage, ...)
 
     @property
     def bad_line_total(self) -> int:
@@ -57,6 +58,7 @@ class LinkHealth:
         self.link_up = True
         self.link_losses = 0
         self.events: deque[LinkEvent] = deque(maxlen=events_kept)
+        self.event_counts: Counter[str] = Counter()
         self._last_sequence: int | None = None
 
     def on_reading(self, reading: SourceReading) -> None:
@@ -68,6 +70,7 @@ class LinkHealth:
                 self.bad_lines[LineStatus(int(code)).name.lower()] += int(count)
         for event in raw.events:
             self.events.append(event)
+            self.event_counts[event.kind] += 1
             if event.kind == "lost":
                 self.link_up = False
                 self.link_losses += 1
@@ -130,4 +133,5 @@ class LinkHealth:
             link_up=self.link_up,
             link_losses=self.link_losses,
             recent_events=tuple(self.events),
+            event_counts=dict(self.event_counts),
         )

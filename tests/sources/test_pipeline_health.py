@@ -96,3 +96,4 @@ def test_bad_lines_flags_gaps_and_link_events():
     assert snap.channels[0].bad_samples == 1
     assert snap.link_up and snap.link_losses == 1
     assert [e.kind for e in snap.recent_events] == ["lost", "connected"]
+    assert snap.event_counts == {"lost": 1, "connected": 1}
