@@ -19,7 +19,7 @@ from monitor.calibration import Calibrator, parse_channels
 from monitor.clock import FakeClock
 from monitor.config import parse_rig
 from monitor.pipeline import Pipeline
-from monitor.recorder.runlog import RunLogWriter
+from monitor.recorder.writer import RunLogWriter
 from monitor.rigs import resolve_rig
 from monitor.sources.live import LiveSource
 

@@ -15,7 +15,7 @@ from drivers.simulated import generate_lines
 from monitor.clock import FakeClock
 from monitor.config import load_rig
 from monitor.demo_logs import DEMO_LOGS, make_demo_log
-from monitor.recorder.runlog import RunLog
+from monitor.recorder.reader import RunLog
 from monitor.rigs import resolve_rig
 from monitor.samples import Batch
 from monitor.sources.replay import ReplaySource

@@ -1,7 +1,7 @@
 """`ejecta record`: records the in-process simulated rig, refuses to overwrite, reports a missing port (exit 3)."""
 
 from monitor.cli import main
-from monitor.recorder.runlog import RunLog
+from monitor.recorder.reader import RunLog
 
 
 def test_record_the_simulated_rig(tmp_path, capsys):

@@ -31,7 +31,7 @@ def run(args: argparse.Namespace) -> int:
     from monitor.config import load_rig
     from monitor.health import LinkHealth
     from monitor.pipeline import Pipeline
-    from monitor.recorder.runlog import RunLogWriter
+    from monitor.recorder.writer import RunLogWriter
     from monitor.rigs import resolve_rig
     from monitor.sources.live import open_live_source
 

@@ -25,7 +25,7 @@ from monitor.clock import Clock, MonotonicClock
 from monitor.config import Rig
 from monitor.errors import ConfigError, PhysicsError
 from monitor.physics import flow_units
-from monitor.recorder.runlog import RunLogWriter
+from monitor.recorder.writer import RunLogWriter
 from monitor.samples import SourceReading
 from monitor.units import parse_quantity
 
@@ -47,11 +47,23 @@ class ImportSummary:
     channels: tuple[str, ...]
 
 
-def import_csv(csv_path: str | Path, out_path: str | Path, rig: Rig,
-               column_map: Mapping[str, tuple[str, str] | Mapping[str, Any]], time_column: str, time_unit: str,
-               *, delimiter: str = ",", decimal: str = ".", skip_lines: int = 0, encoding: str = "utf-8",
-               started_utc: datetime | None = None, assume_utc: bool = False, chunk_lines: int = 50_000,
-               clock: Clock | None = None) -> ImportSummary:
+def import_csv(
+    csv_path: str | Path,
+    out_path: str | Path,
+    rig: Rig,
+    column_map: Mapping[str, tuple[str, str] | Mapping[str, Any]],
+    time_column: str,
+    time_unit: str,
+    *,
+    delimiter: str = ",",
+    decimal: str = ".",
+    skip_lines: int = 0,
+    encoding: str = "utf-8",
+    started_utc: datetime | None = None,
+    assume_utc: bool = False,
+    chunk_lines: int = 50_000,
+    clock: Clock | None = None,
+) -> ImportSummary:
     """Write a new run log from a CSV file of another acquisition system.
 
     Args:
@@ -99,8 +111,12 @@ def import_csv(csv_path: str | Path, out_path: str | Path, rig: Rig,
         wanted = [time_column, *column_map]
         for key in wanted:
             if key not in names:
-                raise ConfigError("column_map" if key != time_column else "time_column", key,
-                                  "a column of the CSV: " + ", ".join(repr(n) for n in names), source)
+                raise ConfigError(
+                    "column_map" if key != time_column else "time_column",
+                    key,
+                    "a column of the CSV: " + ", ".join(repr(n) for n in names),
+                    source,
+                )
         if len(set(names)) != len(names):
             raise ConfigError("csv columns", names, "distinct column names", source)
         specs = _channel_specs(rig, column_map, source)
@@ -139,8 +155,7 @@ def import_csv(csv_path: str | Path, out_path: str | Path, rig: Rig,
                 missing = np.zeros((n, len(fields)), dtype=bool)
                 for k, column in enumerate(texts[1:]):
                     values[good, k], missing[good, k] = _numbers(column, good, status)
-                raw = RawBatch(t_s=t_s, lines=lines, status=status, fields=fields, values=values,
-                               device_time_s=device)
+                raw = RawBatch(t_s=t_s, lines=lines, status=status, fields=fields, values=values, device_time_s=device)
                 batch = calibrator.apply(raw, missing)
                 if writer is None:
                     writer = _writer(out_path, rig, specs, clock, started_utc, extra)
@@ -159,8 +174,17 @@ def import_csv(csv_path: str | Path, out_path: str | Path, rig: Rig,
 
 
 def _writer(out_path, rig, specs, clock, started_utc, extra) -> RunLogWriter:
-    return RunLogWriter(out_path, rig.text, specs, clock or MonotonicClock(), rig_source=rig.source_path or "",
-                        started_utc=started_utc, started_t_s=0.0, extra=extra, unknown_start=started_utc is None)
+    return RunLogWriter(
+        out_path,
+        rig.text,
+        specs,
+        clock or MonotonicClock(),
+        rig_source=rig.source_path or "",
+        started_utc=started_utc,
+        started_t_s=0.0,
+        extra=extra,
+        unknown_start=started_utc is None,
+    )
 
 
 def _channel_specs(rig: Rig, column_map: Mapping[str, Any], source: str):
@@ -178,8 +202,7 @@ def _channel_specs(rig: Rig, column_map: Mapping[str, Any], source: str):
             if _is_flow(unit):
                 table.update({k: base[k] for k in _FLOW_KEYS if k in base})
         else:
-            raise ConfigError(f"column_map[{column!r}]", entry, "(channel name, unit) or a [[channels]] table",
-                              source)
+            raise ConfigError(f"column_map[{column!r}]", entry, "(channel name, unit) or a [[channels]] table", source)
         tables.append(table)
     try:
         return parse_channels(dataclasses.replace(rig, channels=tuple(tables)), tuple(column_map))
@@ -285,9 +308,9 @@ def _iso_stamps(texts, good: np.ndarray, status: np.ndarray, assume_utc: bool, s
     zone-less texts only with assume_utc."""
     for text in texts:
         if text.strip() and not assume_utc and not _ZONE.search(text.strip()):
-            raise ConfigError("time_column", text, "ISO 8601 timestamps with a zone ('Z' or '+01:00'), or "
-                              "assume_utc=True", source)
-    stamps = pd.to_datetime(pd.Series(texts, dtype=object).str.strip(), format="ISO8601", utc=True,
-                            errors="coerce")
+            raise ConfigError(
+                "time_column", text, "ISO 8601 timestamps with a zone ('Z' or '+01:00'), or assume_utc=True", source
+            )
+    stamps = pd.to_datetime(pd.Series(texts, dtype=object).str.strip(), format="ISO8601", utc=True, errors="coerce")
     status[good[stamps.isna().to_numpy()]] = LineStatus.BAD_NUMBER
     return stamps

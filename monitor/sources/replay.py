@@ -10,7 +10,7 @@ import numpy as np
 
 from drivers.base import LineStatus, RawBatch
 from monitor.clock import Clock
-from monitor.recorder.runlog import RunLog
+from monitor.recorder.reader import RunLog
 from monitor.samples import Batch, LinkEvent, SourceReading
 from monitor.sources.base import SampleSource
 

@@ -23,7 +23,7 @@ import monitor
 from drivers.base import LineStatus, RawBatch
 from monitor.clock import FakeClock
 from monitor.errors import ConfigError, LogFormatError, MonitorError
-from monitor.recorder import ChannelColumn, RunLog, RunLogWriter, escape_bytes, runlog, unescape_text
+from monitor.recorder import ChannelColumn, RunLog, RunLogWriter, escape_bytes, unescape_text, writer
 from monitor.samples import Batch, LinkEvent, SourceReading
 
 RIG_TEXT = (Path(monitor.__file__).parent / "rigs" / "bench_nitrogen_1l.toml").read_text(encoding="utf-8")
@@ -259,7 +259,7 @@ class TestCrashSafety:
     def test_fsync_at_most_a_second_apart(self, tmp_path, monkeypatch, clock):
         synced: list[float] = []
         real_fsync = os.fsync
-        monkeypatch.setattr(runlog.os, "fsync", lambda fd: (synced.append(clock.now()), real_fsync(fd)))
+        monkeypatch.setattr(writer.os, "fsync", lambda fd: (synced.append(clock.now()), real_fsync(fd)))
         w = new_writer(tmp_path / "run.ejlog", clock)
         assert synced[0] == 100.0  # the header is made durable at once
         del synced[:]

@@ -7,7 +7,7 @@ import pytest
 
 from drivers.base import LineStatus, RawBatch
 from monitor.clock import FakeClock
-from monitor.recorder.runlog import ChannelColumn, RunLogWriter
+from monitor.recorder import ChannelColumn, RunLogWriter
 from monitor.samples import Batch, LinkEvent, Quality, SourceReading
 from monitor.sources.replay import Pacer, ReplaySource
 
