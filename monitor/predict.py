@@ -10,8 +10,8 @@ from dataclasses import asdict, dataclass
 import numpy as np
 
 from monitor.config import Rig
-from monitor.physics import energy, nozzle, rocket
-from monitor.physics.gas import gas_state, ideal_gamma, specific_gas_constant_j_kg_k
+from monitor.physics import energy, rocket
+from monitor.physics.gas import gas_state, ideal_gamma
 from monitor.physics.tank import Blowdown, FeedSystem, TankPath, predict_blowdown
 from monitor.units import G0_M_S2
 
@@ -107,18 +107,7 @@ def predict(rig: Rig, blowdown: Blowdown | None = None) -> Prediction:
     blow = blowdown if blowdown is not None else predict_blowdown(path, feed)
     start = path.initial_state()
     throttled = gas_state(rig.gas, rig.gas_model, pressure=feed.set_pressure_pa, enthalpy=start.enthalpy_j_kg)
-    perf = nozzle.nozzle_performance(
-        throttled.pressure_pa,
-        throttled.temperature_k,
-        throttled.gamma,
-        specific_gas_constant_j_kg_k(rig.gas),
-        feed.throat_area_m2,
-        feed.exit_area_m2,
-        rig.ambient_pressure_pa,
-        discharge_coefficient=feed.discharge_coefficient,
-        divergence_half_angle_rad=feed.divergence_half_angle_rad,
-        thrust_efficiency=feed.thrust_efficiency,
-    )
+    perf = feed.nozzle_performance(rig.gas, throttled)
     count = feed.nozzle_count
     mdot, thrust, thrust_vac = (float(x) * count for x in (perf.mass_flow_kg_s, perf.thrust_n, perf.thrust_vacuum_n))
     u = float(perf.effective_exhaust_velocity_m_s)

@@ -15,22 +15,10 @@ from __future__ import annotations
 
 import numpy as np
 
-from monitor.errors import PhysicsError
+from monitor.physics.checks import checked as _checked
 
 # Conventional definition of the TNT equivalent: 1 kg of TNT releases 4.184 MJ (1 kcal/g, thermochemical).
 TNT_SPECIFIC_ENERGY_J_KG = 4.184e6
-
-
-def _checked(name: str, value, expectation: str, ok) -> np.ndarray:
-    try:
-        arr = np.asarray(value, dtype=float)
-    except (TypeError, ValueError) as exc:
-        raise PhysicsError(f"{name} = {value!r}: expected {expectation}") from exc
-    with np.errstate(invalid="ignore"):
-        bad = ~np.isfinite(arr) | ~ok(arr)
-    if np.any(bad):
-        raise PhysicsError(f"{name} = {float(arr[bad].flat[0])!r}: expected {expectation}")
-    return arr
 
 
 def _inputs(pressure_pa, ambient_pressure_pa, volume_m3, gamma):

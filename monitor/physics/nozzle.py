@@ -17,25 +17,13 @@ from dataclasses import dataclass
 import numpy as np
 
 from monitor.errors import PhysicsError
+from monitor.physics.checks import checked as _checked
 from monitor.units import G0_M_S2
 
 # Summerfield criterion: flow separates from the wall once the full-flowing exit pressure falls below
 # about 0.4 of ambient (Sutton & Biblarz, ch. 3; a rule of thumb, common practice).
 SUMMERFIELD_SEPARATION_RATIO = 0.4
 _MAX_BISECTIONS = 200
-
-
-def _checked(name: str, value, expectation: str, ok) -> np.ndarray:
-    """Return value as a float array, or raise PhysicsError naming the first bad element."""
-    try:
-        arr = np.asarray(value, dtype=float)
-    except (TypeError, ValueError) as exc:
-        raise PhysicsError(f"{name} = {value!r}: expected {expectation}") from exc
-    with np.errstate(invalid="ignore"):
-        bad = ~np.isfinite(arr) | ~ok(arr)
-    if np.any(bad):
-        raise PhysicsError(f"{name} = {float(arr[bad].flat[0])!r}: expected {expectation}")
-    return arr
 
 
 def _gamma(gamma) -> np.ndarray:

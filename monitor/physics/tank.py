@@ -120,6 +120,21 @@ class FeedSystem:
     divergence_half_angle_rad: float = 0.0
     thrust_efficiency: float = 1.0
 
+    def nozzle_performance(self, gas: str, stagnation: GasState) -> nozzle.NozzlePerformance:
+        """One nozzle's ideal performance fed at a stagnation state (gamma of that state, R of the gas)."""
+        return nozzle.nozzle_performance(
+            stagnation.pressure_pa,
+            stagnation.temperature_k,
+            stagnation.gamma,
+            specific_gas_constant_j_kg_k(gas),
+            self.throat_area_m2,
+            self.exit_area_m2,
+            self.ambient_pressure_pa,
+            discharge_coefficient=self.discharge_coefficient,
+            divergence_half_angle_rad=self.divergence_half_angle_rad,
+            thrust_efficiency=self.thrust_efficiency,
+        )
+
     def outlet_pressure_pa(self, tank_pressure_pa) -> np.ndarray:
         """Regulator outlet pressure for a tank pressure: the set point, or tank minus the drop-out drop."""
         drop = self.min_inlet_pressure_pa - self.set_pressure_pa
@@ -153,18 +168,7 @@ def _feed(path: TankPath, feed: FeedSystem, tank: GasState):
     flowing = outlet > feed.ambient_pressure_pa
     outlet_safe = np.where(flowing, outlet, feed.ambient_pressure_pa * 1.0001)
     down = gas_state(path.gas, path.model, pressure=np.minimum(outlet_safe, tank.pressure_pa), enthalpy=tank.enthalpy_j_kg)
-    perf = nozzle.nozzle_performance(
-        down.pressure_pa,
-        down.temperature_k,
-        down.gamma,
-        specific_gas_constant_j_kg_k(path.gas),
-        feed.throat_area_m2,
-        feed.exit_area_m2,
-        feed.ambient_pressure_pa,
-        discharge_coefficient=feed.discharge_coefficient,
-        divergence_half_angle_rad=feed.divergence_half_angle_rad,
-        thrust_efficiency=feed.thrust_efficiency,
-    )
+    perf = feed.nozzle_performance(path.gas, down)
     n = feed.nozzle_count
     mdot = np.where(flowing, perf.mass_flow_kg_s * n, 0.0)
     thrust = np.where(flowing, perf.thrust_n * n, 0.0)
