@@ -78,7 +78,7 @@ class LinkHealth:
                 self.link_up = True
         self._count_gaps(batch.sequence)
         for name in self.names:
-            good = batch.quality[name] == Quality.GOOD
+            good = Quality.alive(batch.quality[name])  # taring counts as alive, not as bad
             n_good = int(np.count_nonzero(good))
             self._bad[name] += int(good.size - n_good)
             if n_good:

@@ -20,6 +20,12 @@ class Quality(IntFlag):
     NON_FINITE = 2  # NaN or inf on the wire
     OUT_OF_RANGE = 4  # outside the sensor's valid range
     STALE = 8  # no fresh reading within the channel's stale timeout
+    TARING = 16  # the channel is alive but still measuring its zero (tare): no usable value yet
+
+    @staticmethod
+    def alive(quality):
+        """True where a sample shows its channel is delivering: good, or only taring (works on arrays)."""
+        return (quality & ~Quality.TARING & 0xFF) == 0
 
 
 @dataclass(frozen=True)

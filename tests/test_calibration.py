@@ -273,12 +273,12 @@ def test_tare_subtracts_the_mean_of_the_first_good_samples_across_batches():
     cal = Calibrator((spec,), ("F",))
     first = cal.apply(raw_batch(("F",), [[5.0], [np.nan], [5.2]]))
     # Until 3 usable samples are seen there is no zero: the samples are flagged and NaN.
-    assert list(first.quality["thrust"]) == [Quality.MISSING, Quality.NON_FINITE, Quality.MISSING]
+    assert list(first.quality["thrust"]) == [Quality.TARING, Quality.NON_FINITE, Quality.TARING]
     assert cal.tare_offset_si("thrust") is None
     second = cal.apply(raw_batch(("F",), [[4.9], [7.0], [8.0]]))
     mean = (5.0 + 5.2 + 4.9) / 3.0  # arithmetic mean, hand computation
     assert cal.tare_offset_si("thrust") == pytest.approx(mean)
-    assert list(second.quality["thrust"]) == [Quality.MISSING, 0, 0]
+    assert list(second.quality["thrust"]) == [Quality.TARING, 0, 0]
     np.testing.assert_allclose(second.values["thrust"][1:], [7.0 - mean, 8.0 - mean])
     cal.reset_tare()
     third = cal.apply(raw_batch(("F",), [[1.0], [2.0], [3.0], [10.0]]))
@@ -288,7 +288,7 @@ def test_tare_subtracts_the_mean_of_the_first_good_samples_across_batches():
 def test_tare_and_valid_range_apply_to_the_tared_value():
     spec = specs_of(dict(THRUST, tare={"samples": 2}, valid_range=["-1 N", "5 N"]))[0]
     batch = Calibrator((spec,), ("F",)).apply(raw_batch(("F",), [[100.0], [100.0], [104.0], [106.0]]))
-    assert list(batch.quality["thrust"]) == [Quality.MISSING, Quality.MISSING, 0, Quality.OUT_OF_RANGE]
+    assert list(batch.quality["thrust"]) == [Quality.TARING, Quality.TARING, 0, Quality.OUT_OF_RANGE]
 
 
 # --- uncertainty ------------------------------------------------------------------------------------------

@@ -26,7 +26,7 @@ class Calibrator:
 
     Tare (stateful): a channel with tare_samples = N subtracts the mean of its first N usable samples (finite
     and within the calibration's range) from every later sample. Until the N-th has arrived there is no zero
-    to subtract, so the channel's otherwise good samples up to and including it are flagged MISSING (NaN):
+    to subtract, so the channel's otherwise good samples up to and including it are flagged TARING (NaN):
     an untared thrust must not reach the impulse integral. reset_tare starts the count again.
     """
 
@@ -112,7 +112,7 @@ class Calibrator:
         flags[finite & ~usable] |= np.uint8(Quality.OUT_OF_RANGE)
         if spec.tare_samples:
             si, taring = self._tare(spec, si, usable)
-            flags[taring & (flags == 0)] = Quality.MISSING
+            flags[taring & (flags == 0)] = Quality.TARING
         low, high = spec.valid_range_si
         flags[usable & ((si < low) | (si > high))] |= np.uint8(Quality.OUT_OF_RANGE)
         return np.where(flags == 0, si, np.nan), flags
