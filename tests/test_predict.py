@@ -123,8 +123,11 @@ def test_cli_bad_rig_exits_2_with_the_key(tmp_path, capsys):
 
 
 def test_cli_reports_a_condensing_expansion_as_a_rig_problem(tmp_path, capsys):
+    # An isentropic draw of air from 300 bar down to the regulator's drop-out cools it into the two-phase region
+    # (CoolProp, Lemmon et al. 2000 air); predict must say so instead of guessing.
     text = resolve_rig("hover_air_3l").read_text()
     text = text.replace('expansion = "polytropic"', 'expansion = "isentropic"').replace("polytropic_exponent = 1.25", "")
+    text = text.replace('fill_pressure = "280 bar gauge"', 'fill_pressure = "300 bar gauge"')
     bad = tmp_path / "cold.toml"
     bad.write_text(text)
     assert main(["predict", str(bad)]) == 2
