@@ -21,7 +21,8 @@ RIG_FORMAT_VERSION = 1
 RigKind = Literal["stand", "hover_platform"]
 ExpansionModel = Literal["isothermal", "isentropic", "polytropic"]
 
-_SECTIONS = {"format", "rig", "tank", "regulator", "nozzle", "vehicle", "channels", "alerts", "source", "simulation"}
+_SECTIONS = {"format", "rig", "tank", "regulator", "nozzle", "vehicle", "channels", "alerts", "source", "simulation",
+             "estimation"}
 
 
 @dataclass(frozen=True)
@@ -94,6 +95,7 @@ class Rig:
     alerts: tuple[dict[str, Any], ...] = field(default_factory=tuple)  # raw tables, checked by the alert engine
     source: dict[str, Any] = field(default_factory=dict)  # raw table, checked by the source factory
     simulation: dict[str, Any] = field(default_factory=dict)  # raw table, checked by the simulator
+    estimation: dict[str, Any] = field(default_factory=dict)  # raw table, checked by monitor.estimators
 
 
 class _Table:
@@ -213,6 +215,9 @@ def parse_rig(text: str, source: str | None = None) -> Rig:
     simulation = top.raw("simulation", {})
     if not isinstance(simulation, dict):
         raise ConfigError("simulation", simulation, "a table ([simulation])", source)
+    estimation = top.raw("estimation", {})
+    if not isinstance(estimation, dict):
+        raise ConfigError("estimation", estimation, "a table ([estimation])", source)
     return Rig(
         name=name.strip(),
         kind=kind,
@@ -230,6 +235,7 @@ def parse_rig(text: str, source: str | None = None) -> Rig:
         alerts=tuple(alerts),
         source=src,
         simulation=simulation,
+        estimation=estimation,
     )
 
 
