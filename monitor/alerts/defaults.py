@@ -19,6 +19,8 @@ MEOP_RULE = "tank_pressure_above_meop"
 RESERVE_FRACTION = 0.10  # default propellant reserve: 10 % of the usable propellant at fill
 DEADBAND_FRACTION = 0.01  # default deadband: 1 % of the threshold's scale
 HEADROOM_FRACTION = 0.10  # regulator margin: 10 % of the pressure range from fill down to the minimum inlet
+DROOP_FRACTION = 0.10  # feed pressure more than 10 % (of the gauge set point) under the set point while firing
+DROOP_ON_DELAY_S = 0.3  # the feed line fills in tens of milliseconds after the valve opens
 
 
 def _rule(name: str, condition: str, signal: str, threshold: float, kind: str, **fields) -> AlertRule:
@@ -64,7 +66,15 @@ def default_rules(rig: Rig, channels: Sequence[object], usable_at_fill_kg: float
     rules.append(_rule("regulator_headroom_low", "below", "regulator_headroom_pa", HEADROOM_FRACTION * span,
                        "pressure", deadband=DEADBAND_FRACTION * span,
                        message="Tank pressure close to the regulator's minimum inlet pressure"))
-    rules.append(_rule("leak_suspected", "above", "leak_suspected", 0.5, "dimensionless",
+    feed = next((c.name for c in channels if getattr(c, "role", None) == "feed_pressure"), None)
+    if feed is not None:
+        set_gauge = rig.regulator.set_pressure_pa - rig.ambient_pressure_pa
+        rules.append(_rule("feed_pressure_low", "below", feed, rig.regulator.set_pressure_pa - DROOP_FRACTION * set_gauge,
+                           "pressure", deadband=DEADBAND_FRACTION * set_gauge, on_delay_s=DROOP_ON_DELAY_S,
+                           only_while="firing",
+                           message="Feed pressure under the regulator set point while firing: droop, a restriction "
+                           "or a regulator near drop-out"))
+    rules.append(_rule("leak_suspected", "above", "leak_suspected", 0.5, "dimensionless", on_delay_s=1.0,
                        message="Propellant is disappearing faster than the flow meter accounts for"))
     for c in channels:
         rules.append(_rule(f"{c.name}_stale", "stale", c.name, float(c.stale_after_s), "time",
