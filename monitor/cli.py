@@ -16,6 +16,10 @@ COMMANDS: dict[str, tuple[str, str]] = {
     "simulate": ("monitor.commands.simulate", "play a simulated rig's sensor lines on a pseudo-terminal, in real time"),
     "record": ("monitor.commands.record", "acquire from the rig's sensors without a screen and record a run log"),
     "import": ("monitor.commands.import_csv", "turn another system's CSV export into a run log"),
+    "demo": ("monitor.commands.demo", "the monitor on the simulated rig: pulses, a slow leak and a sensor dropout"),
+    "live": ("monitor.commands.live", "the monitor on the rig's sensors, recording the run from the start"),
+    "replay": ("monitor.commands.replay", "the monitor on a recorded run, with pause, step, speed and seek"),
+    "bench": ("monitor.commands.bench", "measure throughput, alert latency and memory of the whole chain"),
 }
 
 
