@@ -11,6 +11,7 @@ from __future__ import annotations
 import math
 import queue
 import threading
+import time
 from collections.abc import Callable
 from dataclasses import dataclass, field
 from pathlib import Path
@@ -65,6 +66,8 @@ class Session:
         writer: the run-log writer (live runs), or None.
         publish_s: the shortest time between two snapshots, s.
         trend_span_s: how much history the snapshot's trends carry, s.
+        min_step_s: the shortest time between two reads (wall clock), so that each batch carries enough data
+            to keep the per-batch cost of the engine small; 0 reads as fast as data come.
     """
 
     def __init__(
@@ -84,6 +87,7 @@ class Session:
         self.writer = writer
         self.publish_s = publish_s
         self.trend_span_s = trend_span_s
+        self.min_step_s = min_step_s  # a step costs a few ms whatever its size: let data gather for at least this
         self.health = LinkHealth(source.channels)
         self.engine = Engine(rig, source.channels, writer=writer)
         listeners = ([writer] if writer is not None else []) + [self.health, self.engine]
@@ -180,12 +184,13 @@ class Session:
     def now_s(self) -> float:
         """Run time now: the run clock (live) or the replay position."""
         if isinstance(self.source, ReplaySource):
-            return min(self.source.pacer.position_s(), self.source.end_s)
+            return self.source.delivered_s  # everything up to here has been handed to the engine
         return self.clock.now()
 
     def _run(self) -> None:
         try:
             while not self._stop.is_set():
+                began = time.monotonic()
                 while True:
                     try:
                         self._actions.get_nowait()()
@@ -197,6 +202,8 @@ class Session:
                 self._publish()
                 if self.pipeline.finished:
                     self._stop.wait(0.05)  # a finished replay stays on screen; actions still work
+                else:
+                    self._stop.wait(max(0.0, self.min_step_s - (time.monotonic() - began)))
         finally:
             self._finish()
 

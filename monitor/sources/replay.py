@@ -112,8 +112,10 @@ class ReplaySource(SampleSource):
         self.max_gap_s = max_gap_s
         self.max_rows = max_rows
         self._rows = self._load()
-        self.start_s = float(self._rows.t_s[0]) if self._rows.t_s.size else 0.0
-        self.end_s = float(self._rows.t_s[-1]) if self._rows.t_s.size else 0.0
+        times = np.concatenate([self._rows.t_s[:1], self._rows.t_s[-1:], self._rows.event_t_s])
+        self.start_s = float(times.min()) if times.size else 0.0
+        self.end_s = float(times.max()) if times.size else 0.0
+        self.delivered_s = -np.inf  # log time through which every row and event has been handed out
         self.pacer = Pacer(clock, speed, start_s=self.start_s)
         self._cursor = 0
         self._event_cursor = 0
@@ -163,6 +165,7 @@ class ReplaySource(SampleSource):
         log_s = min(max(log_s, self.start_s), self.end_s)
         self._cursor = int(np.searchsorted(self._rows.t_s, log_s, side="left"))
         self._event_cursor = int(np.searchsorted(self._rows.event_t_s, log_s, side="left"))
+        self.delivered_s = log_s
         self.pacer.seek(log_s)
 
     def step(self, rows: int = 1) -> SourceReading | None:
@@ -191,6 +194,8 @@ class ReplaySource(SampleSource):
 
     def _reading(self, lo: int, hi: int, until: float) -> SourceReading:
         rows = self._rows
+        until = min(float(until), self.end_s)
+        self.delivered_s = max(self.delivered_s, until)
         e_hi = int(np.searchsorted(rows.event_t_s, until, side="right"))
         events = rows.events[self._event_cursor : max(e_hi, self._event_cursor)]
         self._cursor, self._event_cursor = hi, max(e_hi, self._event_cursor)
