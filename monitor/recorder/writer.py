@@ -19,6 +19,7 @@ from monitor.recorder.format import (
     _KNOWN_KEYS,
     _LABEL,
     _QUALITY_TABLE,
+    _SAFE,
     _STATUS_TABLE,
     FIXED_LEFT,
     FIXED_RIGHT,
@@ -276,7 +277,7 @@ class RunLogWriter:
             if any(w is None for w in words[~ok]):
                 raise MonitorError(f"run log: unknown line status codes {sorted(set(status.tolist()))}")
             add(words)
-        add(np.array([escape_bytes(line) for line in raw.lines], dtype=object), "")
+        add(np.array(_escaped_lines(raw.lines), dtype=object), "")
         return cols, lits
 
     @staticmethod
@@ -320,3 +321,15 @@ def _merge(raw_values, good_values, ok, all_ok, n=None, fill=np.nan, dtype=np.fl
     if good_values is not None:
         out[ok] = good_values
     return out
+
+
+def _escaped_lines(lines: list[bytes]) -> list[str]:
+    """escape_bytes of each line; when no line holds a byte that needs escaping (the usual case), one decode
+    and one split do them all at once."""
+    joined = b"\n".join(lines)
+    if lines and not joined.translate(None, _SAFE_OR_LF) and joined.count(b"\n") == len(lines) - 1:
+        return joined.decode("ascii").split("\n")
+    return [escape_bytes(line) for line in lines]
+
+
+_SAFE_OR_LF = _SAFE + b"\n"

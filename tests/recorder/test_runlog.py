@@ -425,3 +425,13 @@ def test_the_documented_example_reads_back(tmp_path):
     assert [(e.kind, e.detail) for e in log.events()] == [("connected", "/dev/ttyACM0 at 115200 baud")]
     body = pd.read_csv(path, skiprows=log.header_lines, keep_default_na=False, na_values=[""])
     assert body["kind"].tolist() == ["e", "s", "b", "s", "a"] and body["thrust_n"][3] == 1.25
+
+
+def test_lines_holding_a_line_feed_keep_it_escaped(tmp_path):
+    """A CR-framed stream can carry '\\n' inside a line: the bulk escape must not split it."""
+    from monitor.recorder.writer import _escaped_lines
+
+    lines = [b"a,1", b"b\n2", b"c,3"]
+    assert _escaped_lines(lines) == [escape_bytes(x) for x in lines] == ["a,1", "b\\n2", "c,3"]
+    assert _escaped_lines([b"x", b"y"]) == ["x", "y"]
+    assert _escaped_lines([]) == []
