@@ -6,7 +6,8 @@ samples and on the times it is advanced to, so a replayed run raises exactly the
 - Samples drive the estimator and the alert rules in time order.
 - Time-based conditions (a channel gone stale, a delay ending while nothing arrives) are judged at the
   points of a fixed grid in run time (every TICK_S seconds) that fall in a silence, i.e. with no sample in
-  the grid step before them. Inside a batch those points are found from the sample times themselves; after
+  the SILENCE_S before them (while samples flow, the rules judge staleness from the samples themselves).
+  Inside a batch those points are found from the sample times themselves; after
   the newest sample they are judged when the owner calls advance_to(now_s) with the run clock (live) or the
   replay position (replay). A later sample is never older than `now_s`, so both see the same points.
 """
@@ -26,6 +27,7 @@ from monitor.samples import Batch, Quality, SourceReading
 from monitor.signals import Signals
 
 TICK_S = 0.1
+SILENCE_S = 0.5  # a grid point is judged only after this long without any sample
 TIMELINE_KEPT = 2000
 
 
@@ -191,10 +193,10 @@ _EPS = 1e-9
 
 
 def _silent_grid(previous_s: np.ndarray, t_s: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
-    """For each sample, the grid indices k with no sample in (k TICK_S - TICK_S, k TICK_S] between the
-    previous sample and it: previous + TICK_S <= k TICK_S < t. Empty ranges have last < first."""
+    """For each sample, the grid indices k with no sample in (k TICK_S - SILENCE_S, k TICK_S] between the
+    previous sample and it: previous + SILENCE_S <= k TICK_S < t. Empty ranges have last < first."""
     with np.errstate(invalid="ignore"):
-        first = np.where(np.isfinite(previous_s), np.ceil((previous_s + TICK_S) / TICK_S - _EPS), 0.0)
+        first = np.where(np.isfinite(previous_s), np.ceil((previous_s + SILENCE_S) / TICK_S - _EPS), 0.0)
         last = np.where(np.isfinite(t_s), np.ceil(t_s / TICK_S - _EPS) - 1.0, np.inf)
     return first, last
 
