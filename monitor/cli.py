@@ -20,6 +20,8 @@ COMMANDS: dict[str, tuple[str, str]] = {
     "live": ("monitor.commands.live", "the monitor on the rig's sensors, recording the run from the start"),
     "replay": ("monitor.commands.replay", "the monitor on a recorded run, with pause, step, speed and seek"),
     "bench": ("monitor.commands.bench", "measure throughput, alert latency and memory of the whole chain"),
+    "review": ("monitor.commands.review", "summarise a recorded run: impulse, Isp, propellant, alerts; JSON or HTML report"),
+    "compare": ("monitor.commands.compare", "compare recorded runs side by side, with their plots overlaid"),
 }
 
 

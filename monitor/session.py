@@ -79,6 +79,7 @@ class Session:
         writer=None,
         publish_s: float = 0.05,
         trend_span_s: float = 60.0,
+        min_step_s: float = 0.0,
     ):
         self.rig = rig
         self.source = source
@@ -174,9 +175,10 @@ class Session:
                 self._actions.get_nowait()()
             except queue.Empty:
                 break
+        read_at_s = self.now_s()
         self.pipeline.step(timeout_s)
         if not self.pipeline.finished:
-            self.engine.advance_to(self.now_s())
+            self.engine.advance_to(self._judged_until(read_at_s))
         self._publish(force=True)
         return self._snapshot
 
@@ -187,6 +189,12 @@ class Session:
             return self.source.delivered_s  # everything up to here has been handed to the engine
         return self.clock.now()
 
+    def _judged_until(self, read_at_s: float) -> float:
+        """How far silences may be judged after a read: a replay, to what it has delivered; a live source, to
+        the moment the read began (not to now: samples that came due while a long batch was being processed
+        are not read yet, and judging past them would call every channel stale)."""
+        return self.now_s() if isinstance(self.source, ReplaySource) else read_at_s
+
     def _run(self) -> None:
         try:
             while not self._stop.is_set():
@@ -196,9 +204,10 @@ class Session:
                         self._actions.get_nowait()()
                     except queue.Empty:
                         break
+                read_at_s = self.now_s()  # every sample due by now is in the coming read
                 self.pipeline.step(0.05)
                 if not self.pipeline.finished:
-                    self.engine.advance_to(self.now_s())
+                    self.engine.advance_to(self._judged_until(read_at_s))
                 self._publish()
                 if self.pipeline.finished:
                     self._stop.wait(0.05)  # a finished replay stays on screen; actions still work
