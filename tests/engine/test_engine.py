@@ -5,8 +5,8 @@ import math
 
 import pytest
 
-from drivers.simulated import RigSimulator, SimulatedDriver
 from drivers.sim_scenario import parse_simulation
+from drivers.simulated import RigSimulator, SimulatedDriver
 from monitor.alerts import AlertTransition
 from monitor.calibration import Calibrator, parse_channels
 from monitor.clock import FakeClock, RunClock
