@@ -13,26 +13,10 @@ def add_arguments(parser: argparse.ArgumentParser) -> None:
 
 
 def replay_channels(rig, columns, path) -> tuple:
-    """The rig file's channel specs for the log's channels, in the log's order.
+    """The rig file's channel specs for the log's channels (monitor.sources.replay.rig_channel_specs)."""
+    from monitor.sources.replay import rig_channel_specs
 
-    A run log stores each channel's name and quantity; the estimators also need its role and accuracy, which
-    come from the rig file in the log's header.
-
-    Raises:
-        LogFormatError: a channel of the log that the rig file lacks, or of another quantity.
-    """
-    from monitor.calibration import parse_channels
-    from monitor.errors import LogFormatError
-
-    specs = {s.name: s for s in parse_channels(rig)}
-    out = []
-    for column in columns:
-        spec = specs.get(column.name)
-        if spec is None or spec.quantity != column.quantity:
-            raise LogFormatError(f"{path}: channel {column.name!r} ({column.quantity}) is not a channel of the rig "
-                                 "file in the log's header")
-        out.append(spec)
-    return tuple(out)
+    return rig_channel_specs(rig, columns, path)
 
 
 def open_replay(path, clock, speed: float = 1.0):

@@ -10,7 +10,6 @@ from pathlib import Path
 
 import numpy as np
 
-from monitor.calibration import parse_channels
 from monitor.clock import FakeClock
 from monitor.config import Rig, parse_rig
 from monitor.engine import Engine
@@ -20,7 +19,7 @@ from monitor.recorder import RunLog
 from monitor.review import summary as S
 from monitor.review.collect import CUMULATIVE, Collector
 from monitor.review.damage import copy_before, find_damage
-from monitor.sources.replay import ReplaySource
+from monitor.sources.replay import ReplaySource, rig_channel_specs
 
 BATCH_ROWS = 200_000
 PLOTTED_ESTIMATES = ("thrust_estimated_n", "thrust_measured_n", "mass_flow_filtered_kg_s", "propellant_flow_gauge_kg",
@@ -74,7 +73,7 @@ def review_log(path: str | Path, with_prediction: bool = False, batch_rows: int 
 def _review(shown: Path, log: RunLog, path: Path, warnings, with_prediction, batch_rows) -> Review:
     rig = parse_rig(log.header.rig_text, f"{shown} (the rig file in its header)")
     source = ReplaySource(path, FakeClock(), speed=math.inf, max_rows=batch_rows)
-    channels = _channels(rig, source.channels, shown)
+    channels = rig_channel_specs(rig, source.channels, shown)
     engine = Engine(rig, channels, trend_names=("firing",))
     health = LinkHealth(channels)
     blowdown = _blowdown(rig) if with_prediction else None
@@ -103,19 +102,6 @@ def _review(shown: Path, log: RunLog, path: Path, warnings, with_prediction, bat
                      source.end_s - source.start_s, collector.samples, tuple(warnings))
     summary = _summarise(rig, channels, info, state, collector, snapshot, blowdown)
     return Review(summary, t_s, series, roles)
-
-
-def _channels(rig: Rig, columns, shown: Path) -> tuple:
-    """The rig file's channel specs for the log's channels, in the log's order (the estimators need roles)."""
-    specs = {s.name: s for s in parse_channels(rig)}
-    out = []
-    for column in columns:
-        spec = specs.get(column.name)
-        if spec is None or spec.quantity != column.quantity:
-            raise LogFormatError(f"{shown}: channel {column.name!r} ({column.quantity}) is not a channel of the rig "
-                                 "file in the log's header")
-        out.append(spec)
-    return tuple(out)
 
 
 def _blowdown(rig: Rig):

@@ -10,6 +10,7 @@ import numpy as np
 
 from drivers.base import LineStatus, RawBatch
 from monitor.clock import Clock
+from monitor.errors import LogFormatError
 from monitor.recorder.reader import RunLog
 from monitor.samples import Batch, LinkEvent, SourceReading
 from monitor.sources.base import SampleSource
@@ -219,3 +220,26 @@ class ReplaySource(SampleSource):
             events=list(events),
         )
         return SourceReading(raw=raw, batch=batch)
+
+
+def rig_channel_specs(rig, columns, path) -> tuple:
+    """The rig file's channel specs for a log's channels, in the log's order.
+
+    A run log stores each channel's name and quantity; the estimators also need its role and accuracy, which
+    come from the rig file in the log's header.
+
+    Raises:
+        LogFormatError: a channel of the log that the rig file lacks, or of another quantity.
+    """
+    from monitor.calibration import parse_channels
+
+    specs = {s.name: s for s in parse_channels(rig)}
+    out = []
+    for column in columns:
+        spec = specs.get(column.name)
+        if spec is None or spec.quantity != column.quantity:
+            raise LogFormatError(
+                f"{path}: channel {column.name!r} ({column.quantity}) is not a channel of the rig file in the log's header"
+            )
+        out.append(spec)
+    return tuple(out)
