@@ -38,8 +38,7 @@ class _Overlay(Screen):
         yield TextBlock(layout.caution_line_block, self.app.view, id="caution")
         yield TextBlock(self._page, self.app.view, id="body")
 
-    def body(self, view: MonitorView, width: int, height: int) -> list[layout.Line]:
-        raise NotImplementedError
+    # Each overlay defines body(view, width, height) -> list[layout.Line]: the lines it shows.
 
     def _page(self, view: MonitorView, width: int, height: int) -> list[layout.Line]:
         lines = self.body(view, width, height)
