@@ -2,7 +2,10 @@
 
 from __future__ import annotations
 
+import csv
 import io
+import math
+import mmap
 import os
 import re
 from dataclasses import dataclass, field
@@ -181,16 +184,24 @@ class RunLog:
         return RawLines(df["t_s"].to_numpy()[rows], lines, status)
 
     def notes(self, kind: str | None = None) -> list[Note]:
-        """The note rows (link events, alerts, ...), optionally only those of one kind letter."""
-        df = self.table(["kind", "t_s", "status", "raw"])
-        keep = ~df["kind"].isin(LINE_KINDS) if kind is None else df["kind"] == kind
-        out = []
-        for i in np.flatnonzero(keep.to_numpy()).tolist():
-            try:
-                text = unescape_text(df["raw"].iat[i]).decode("utf-8", "replace")
-            except ValueError:
-                raise LogFormatError(f"{self.path}, line {self._line(i)}: the text is not validly escaped") from None
-            out.append(Note(df["kind"].iat[i], float(df["t_s"].iat[i]), df["status"].iat[i], text))
+        """The note rows (link events, alerts, ...), optionally only those of one kind letter.
+
+        Notes are rare, so instead of parsing every row the body is scanned for lines that start with a note
+        letter (a regular expression over a memory map), and only those lines are read as CSV.
+        """
+        letters = "".join(c for c in "abcdefghijklmnopqrstuvwxyz" if c not in LINE_KINDS) if kind is None else kind
+        pattern = re.compile(rb"\n([" + re.escape(letters).encode("ascii") + rb"]),[^\n]*")
+        out: list[Note] = []
+        with open(self.path, "rb") as f, mmap.mmap(f.fileno(), 0, access=mmap.ACCESS_READ) as body:
+            for match in pattern.finditer(body, max(self.data_start - 1, 0), self.data_end):
+                row = next(csv.reader([match.group(0)[1:].decode("ascii", "replace")]))
+                try:
+                    text = unescape_text(row[-1]).decode("utf-8", "replace")
+                    t_s = float(row[1]) if row[1] else math.nan
+                except (ValueError, IndexError):
+                    line = self._line(body[self.data_start : match.start() + 1].count(b"\n"))
+                    raise LogFormatError(f"{self.path}, line {line}: the text is not validly escaped") from None
+                out.append(Note(row[0], t_s, row[-2], text))
         return out
 
     def events(self) -> list[LinkEvent]:

@@ -128,9 +128,8 @@ class ReplaySource(SampleSource):
         lines = np.isin(kind, ("s", "b"))
         line_table = table[lines]
         is_sample = line_table["kind"].to_numpy() == "s"
-        status = np.array(
-            [_STATUS_CODES.get(w, int(LineStatus.GARBAGE)) for w in line_table["status"].to_numpy()], dtype=np.uint8
-        )
+        codes = line_table["status"].map(_STATUS_CODES)  # a hashed lookup per row inside pandas, no Python loop
+        status = codes.fillna(int(LineStatus.GARBAGE)).to_numpy(dtype=np.uint8)
         samples = line_table[is_sample]
         seq = samples["seq"].to_numpy(dtype=np.float64)
         batch = Batch(
