@@ -25,7 +25,7 @@ from serial.serialutil import Timeout
 
 from drivers.base import Driver, LineStatus, RawBatch
 from monitor.clock import Clock
-from monitor.config import Rig, _Table
+from monitor.config import Rig, RigTable
 from monitor.errors import ConfigError, SourceError
 from monitor.samples import LinkEvent
 from monitor.units import UREG
@@ -39,7 +39,11 @@ except ImportError:  # pragma: no cover - not POSIX
 
 # Register type -> (registers it spans, struct format of the big-endian bytes).
 REGISTER_TYPES: dict[str, tuple[int, str]] = {
-    "int16": (1, ">h"), "uint16": (1, ">H"), "int32": (2, ">i"), "uint32": (2, ">I"), "float32": (2, ">f"),
+    "int16": (1, ">h"),
+    "uint16": (1, ">H"),
+    "int32": (2, ">i"),
+    "uint32": (2, ">I"),
+    "float32": (2, ">f"),
 }
 WORD_ORDERS = ("big", "little")
 _PARITY = {"none": serial.PARITY_NONE, "even": serial.PARITY_EVEN, "odd": serial.PARITY_ODD}
@@ -157,7 +161,7 @@ class ModbusRtuConfig:
             ConfigError: naming the key (e.g. "source.registers[1].type", registers counted from 0), the
                 value and what was expected, for any missing, unknown or wrong key.
         """
-        t = _Table(table, "source", source_path)
+        t = RigTable(table, "source", source_path)
         t.choice("driver", ("modbus_rtu",))
         port = t.raw("port")
         if not isinstance(port, str) or not port.strip():
@@ -174,33 +178,39 @@ class ModbusRtuConfig:
             raise ConfigError(t.key("registers"), tables, "one or more [[source.registers]] tables", t.source)
         registers: list[RegisterSpec] = []
         for index, raw in enumerate(tables):
-            spec = _register(_Table(raw, f"source.registers[{index}]", source_path))
+            spec = _register(RigTable(raw, f"source.registers[{index}]", source_path))
             if spec.field in (r.field for r in registers):
                 key = f"source.registers[{index}].field"
                 raise ConfigError(key, spec.field, "a field name no other register uses", source_path)
             registers.append(spec)
         t.finish()
         return cls(
-            port=port.strip(), baud=baud, parity=parity, stop_bits=stop_bits, poll_period_s=1.0 / rate_hz,
-            timeout_s=timeout_s, registers=tuple(registers), source_path=source_path,
+            port=port.strip(),
+            baud=baud,
+            parity=parity,
+            stop_bits=stop_bits,
+            poll_period_s=1.0 / rate_hz,
+            timeout_s=timeout_s,
+            registers=tuple(registers),
+            source_path=source_path,
         )
 
 
-def _integer(t: _Table, name: str, default: Any, low: int, high: int) -> int:
+def _integer(t: RigTable, name: str, default: Any, low: int, high: int) -> int:
     value = t.raw(name, default)
     if isinstance(value, bool) or not isinstance(value, int) or not low <= value <= high:
         raise ConfigError(t.key(name), value, f"a whole number from {low} to {high}", t.source)
     return value
 
 
-def _finite(t: _Table, name: str, default: float) -> float:
+def _finite(t: RigTable, name: str, default: float) -> float:
     value = t.raw(name, default)
     if isinstance(value, bool) or not isinstance(value, (int, float)) or not math.isfinite(value):
         raise ConfigError(t.key(name), value, "a finite number", t.source)
     return float(value)
 
 
-def _rate_hz(t: _Table, name: str, default: str) -> float:
+def _rate_hz(t: RigTable, name: str, default: str) -> float:
     value = t.raw(name, default)
     if not isinstance(value, str):
         raise ConfigError(t.key(name), value, "a rate with its unit, as a string such as '20 Hz'", t.source)
@@ -213,7 +223,7 @@ def _rate_hz(t: _Table, name: str, default: str) -> float:
     return rate_hz
 
 
-def _register(t: _Table) -> RegisterSpec:
+def _register(t: RigTable) -> RegisterSpec:
     name = t.raw("field")
     if not isinstance(name, str) or not _FIELD_NAME.match(name):
         raise ConfigError(t.key("field"), name, "a name of letters, digits and '_', like 'P_tank'", t.source)
@@ -236,14 +246,13 @@ def _register(t: _Table) -> RegisterSpec:
     return spec
 
 
-def plan_requests(
-    registers: Sequence[RegisterSpec], max_count: int = MAX_REGISTERS_PER_REQUEST
-) -> tuple[ReadRequest, ...]:
+def plan_requests(registers: Sequence[RegisterSpec], max_count: int = MAX_REGISTERS_PER_REQUEST) -> tuple[ReadRequest, ...]:
     """Group registers of one unit and table that touch or overlap into single reads of at most max_count.
 
     Gaps are never bridged: a register between two wanted ones may not exist on the device, and reading it
     would make the unit answer with an exception instead of the values.
     """
+
     def place(i: int) -> tuple[int, str, int]:
         return registers[i].unit_id, registers[i].table, registers[i].address
 
@@ -252,9 +261,12 @@ def plan_requests(
     for i in order:
         r = registers[i]
         last = plan[-1] if plan else None
-        if (last is not None and (last.unit_id, last.table) == (r.unit_id, r.table)
-                and r.address <= last.address + last.count
-                and max(last.address + last.count, r.address + r.count) - last.address <= max_count):
+        if (
+            last is not None
+            and (last.unit_id, last.table) == (r.unit_id, r.table)
+            and r.address <= last.address + last.count
+            and max(last.address + last.count, r.address + r.count) - last.address <= max_count
+        ):
             end = max(last.address + last.count, r.address + r.count)
             plan[-1] = ReadRequest(r.unit_id, r.table, last.address, end - last.address, (*last.members, i))
         else:
@@ -318,8 +330,14 @@ class ModbusRtuDriver(Driver):
     def _open_port(self) -> Any:
         c = self.config
         return serial.serial_for_url(
-            c.port, baudrate=c.baud, bytesize=serial.EIGHTBITS, parity=_PARITY[c.parity],
-            stopbits=c.stop_bits, timeout=_READ_SLICE_S, write_timeout=c.timeout_s, exclusive=True,
+            c.port,
+            baudrate=c.baud,
+            bytesize=serial.EIGHTBITS,
+            parity=_PARITY[c.parity],
+            stopbits=c.stop_bits,
+            timeout=_READ_SLICE_S,
+            write_timeout=c.timeout_s,
+            exclusive=True,
         )
 
     def _open(self) -> None:
@@ -364,9 +382,12 @@ class ModbusRtuDriver(Driver):
         if not rows:
             return RawBatch.empty(self.fields, events)
         return RawBatch(
-            t_s=np.array([r[0] for r in rows], dtype=float), lines=[r[1] for r in rows],
-            status=np.array([r[2] for r in rows], dtype=np.uint8), fields=self.fields,
-            values=np.vstack([r[3] for r in rows]), events=events,
+            t_s=np.array([r[0] for r in rows], dtype=float),
+            lines=[r[1] for r in rows],
+            status=np.array([r[2] for r in rows], dtype=np.uint8),
+            fields=self.fields,
+            values=np.vstack([r[3] for r in rows]),
+            events=events,
         )
 
     def _poll(self) -> tuple[float, bytes, LineStatus, np.ndarray]:
@@ -387,7 +408,7 @@ class ModbusRtuDriver(Driver):
             for i in request.members:
                 spec = self.config.registers[i]
                 start = spec.address - request.address
-                raw = decode_registers(registers[start:start + spec.count], spec.type, spec.word_order)
+                raw = decode_registers(registers[start : start + spec.count], spec.type, spec.word_order)
                 values[i] = raw * spec.scale + spec.offset
         t_s = self._clock.now()
         # Keep the cadence; after a slow poll or a late caller, poll again at once but never in a burst.

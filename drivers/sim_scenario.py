@@ -14,7 +14,7 @@ from typing import Any
 
 import numpy as np
 
-from monitor.config import Rig, _Table
+from monitor.config import Rig, RigTable
 from monitor.errors import ConfigError
 from monitor.units import parse_quantity
 
@@ -114,7 +114,7 @@ def parse_simulation(rig: Rig, channels: dict[str, str | None], scenario: str | 
         ConfigError: any key missing, unknown or wrong, or an unknown scenario name.
     """
     src = rig.source_path
-    top = _Table(rig.simulation, "simulation", src)
+    top = RigTable(rig.simulation, "simulation", src)
     rate = _rate_hz(top, "sample_rate", "1 kHz")
     if not 1.0 <= rate <= MAX_SAMPLE_RATE_HZ:
         raise top.fail("sample_rate", f"a rate from 1 Hz to {MAX_SAMPLE_RATE_HZ:g} Hz")
@@ -128,7 +128,7 @@ def parse_simulation(rig: Rig, channels: dict[str, str | None], scenario: str | 
     base = _layer(top, channels, rig.ambient_pressure_pa)
     layers = {}
     for name in scenarios:
-        layer = _Table(scenarios[name], f"simulation.scenarios.{name}", src)
+        layer = RigTable(scenarios[name], f"simulation.scenarios.{name}", src)
         for key in layer.data:
             if key not in SCENARIO_KEYS:
                 raise layer.fail(key, "no such key in a scenario; it may set " + ", ".join(SCENARIO_KEYS))
@@ -142,11 +142,20 @@ def parse_simulation(rig: Rig, channels: dict[str, str | None], scenario: str | 
         raise ConfigError("scenario", chosen, expected, src)
     top.finish()
     values = {**base, **(layers[chosen] if chosen is not None else {})}
-    return Scenario(chosen, values["description"], rate, values["seed"], values["duration"], tau,
-                    _merge(values["pulses"] + values["valve_open"]), values["faults"], sensors)
+    return Scenario(
+        chosen,
+        values["description"],
+        rate,
+        values["seed"],
+        values["duration"],
+        tau,
+        _merge(values["pulses"] + values["valve_open"]),
+        values["faults"],
+        sensors,
+    )
 
 
-def _layer(t: _Table, channels: dict[str, str | None], ambient_pa: float) -> dict[str, Any]:
+def _layer(t: RigTable, channels: dict[str, str | None], ambient_pa: float) -> dict[str, Any]:
     """The scenario keys a table gives, checked (all of them, with their defaults, for the base table)."""
     base = t.prefix == "simulation"
     out: dict[str, Any] = {}
@@ -169,7 +178,7 @@ def _layer(t: _Table, channels: dict[str, str | None], ambient_pa: float) -> dic
     return out
 
 
-def _rate_hz(t: _Table, name: str, default: Any) -> float:
+def _rate_hz(t: RigTable, name: str, default: Any) -> float:
     """A rate such as "1 kHz" or "5 /s", in 1/s (read through its period)."""
     value = t.raw(name, default)
     if not isinstance(value, str):
@@ -183,21 +192,21 @@ def _rate_hz(t: _Table, name: str, default: Any) -> float:
     return 1.0 / period_s
 
 
-def _table_array(t: _Table, name: str) -> list[_Table]:
+def _table_array(t: RigTable, name: str) -> list[RigTable]:
     value = t.raw(name, [])
     if not isinstance(value, list) or not all(isinstance(v, dict) for v in value):
         raise t.fail(name, f"an array of tables ([[{t.key(name)}]])")
-    return [_Table(v, f"{t.key(name)}[{i}]", t.source) for i, v in enumerate(value)]
+    return [RigTable(v, f"{t.key(name)}[{i}]", t.source) for i, v in enumerate(value)]
 
 
-def _time(t: _Table, name: str, default: Any = ..., positive: bool = False) -> float:
+def _time(t: RigTable, name: str, default: Any = ..., positive: bool = False) -> float:
     value = t.quantity(name, "time", default, positive=positive)
     if value < 0.0:
         raise t.fail(name, "a time of zero or more")
     return value
 
 
-def _pulses(t: _Table) -> list[tuple[float, float]]:
+def _pulses(t: RigTable) -> list[tuple[float, float]]:
     out = []
     for p in _table_array(t, "pulses"):
         start, on, off = _time(p, "start"), _time(p, "on", positive=True), _time(p, "off", positive=True)
@@ -209,11 +218,11 @@ def _pulses(t: _Table) -> list[tuple[float, float]]:
     return out
 
 
-def _valve_open(t: _Table) -> list[tuple[float, float]]:
+def _valve_open(t: RigTable) -> list[tuple[float, float]]:
     value = t.raw("valve_open", [])
     key = t.key("valve_open")
     if not isinstance(value, list):
-        raise t.fail("valve_open", "an array of [open, close] time pairs, such as [[\"5 s\", \"7.5 s\"]]")
+        raise t.fail("valve_open", 'an array of [open, close] time pairs, such as [["5 s", "7.5 s"]]')
     out = []
     for i, pair in enumerate(value):
         if not isinstance(pair, list) or len(pair) != 2:
@@ -235,14 +244,14 @@ def _merge(intervals: list[tuple[float, float]]) -> tuple[tuple[float, float], .
     return tuple((a, b) for a, b in merged)
 
 
-def _channel(t: _Table, channels: dict[str, str | None]) -> str:
+def _channel(t: RigTable, channels: dict[str, str | None]) -> str:
     name = t.raw("channel")
     if name not in channels:
         raise t.fail("channel", "one of the channels the simulator sends: " + ", ".join(channels))
     return name
 
 
-def _faults(t: _Table, channels: dict[str, str | None], ambient_pa: float) -> tuple[Fault, ...]:
+def _faults(t: RigTable, channels: dict[str, str | None], ambient_pa: float) -> tuple[Fault, ...]:
     faults = []
     for f in _table_array(t, "faults"):
         kind = f.choice("kind", tuple(FAULT_KEYS))
@@ -252,15 +261,25 @@ def _faults(t: _Table, channels: dict[str, str | None], ambient_pa: float) -> tu
         if kind == "stuck":
             fault = Fault(kind, _time(f, "start"), _channel(f, channels))
         elif kind == "dropout":
-            fault = Fault(kind, _time(f, "start"), _channel(f, channels), _time(f, "duration", positive=True),
-                          send=f.choice("send", ("nan", "empty"), "nan"))
+            fault = Fault(
+                kind,
+                _time(f, "start"),
+                _channel(f, channels),
+                _time(f, "duration", positive=True),
+                send=f.choice("send", ("nan", "empty"), "nan"),
+            )
         elif kind == "spikes":
             size = f.number("size")
             if size == 0.0 or not math.isfinite(size):
                 raise f.fail("size", "a non-zero finite size, in the units the sensor sends")
-            fault = Fault(kind, _time(f, "start", "0 s"), _channel(f, channels),
-                          _time(f, "duration", positive=True) if "duration" in f.data else math.inf,
-                          rate=_rate_hz(f, "rate", ...), size=size)
+            fault = Fault(
+                kind,
+                _time(f, "start", "0 s"),
+                _channel(f, channels),
+                _time(f, "duration", positive=True) if "duration" in f.data else math.inf,
+                rate=_rate_hz(f, "rate", ...),
+                size=size,
+            )
         elif kind == "leak":
             fault = Fault(kind, _time(f, "start"), rate=f.quantity("rate", "mass_flow"))
         elif kind == "link_loss":
@@ -274,7 +293,7 @@ def _faults(t: _Table, channels: dict[str, str | None], ambient_pa: float) -> tu
     return tuple(faults)
 
 
-def _droop(f: _Table, ambient_pa: float) -> Fault:
+def _droop(f: RigTable, ambient_pa: float) -> Fault:
     if "rate" not in f.data and "set_point" not in f.data:
         raise ConfigError(f.key("rate"), None, "a rate (such as '0.2 bar/s'), a set_point, or both", f.source)
     rate = 0.0
@@ -292,14 +311,13 @@ def _droop(f: _Table, ambient_pa: float) -> Fault:
     return Fault("droop", _time(f, "start"), rate=rate, set_point_pa=set_point)
 
 
-def _sensors(top: _Table, channels: dict[str, str | None]) -> dict[str, SensorSpec]:
-    table = _Table(top.raw("sensors", {}), "simulation.sensors", top.source)
+def _sensors(top: RigTable, channels: dict[str, str | None]) -> dict[str, SensorSpec]:
+    table = RigTable(top.raw("sensors", {}), "simulation.sensors", top.source)
     out = {}
     for name in table.data:
         if name not in channels:
-            raise table.fail(name, "a table named after one of the channels the simulator sends: "
-                             + ", ".join(channels))
-        t = _Table(table.raw(name), table.key(name), top.source)
+            raise table.fail(name, "a table named after one of the channels the simulator sends: " + ", ".join(channels))
+        t = RigTable(table.raw(name), table.key(name), top.source)
         noise, resolution = t.number("noise", 0.0, low=0.0), t.number("resolution", 0.0, low=0.0)
         for key, value in (("noise", noise), ("resolution", resolution)):
             if not math.isfinite(value):

@@ -21,8 +21,19 @@ RIG_FORMAT_VERSION = 1
 RigKind = Literal["stand", "hover_platform"]
 ExpansionModel = Literal["isothermal", "isentropic", "polytropic"]
 
-_SECTIONS = {"format", "rig", "tank", "regulator", "nozzle", "vehicle", "channels", "alerts", "source", "simulation",
-             "estimation"}
+_SECTIONS = {
+    "format",
+    "rig",
+    "tank",
+    "regulator",
+    "nozzle",
+    "vehicle",
+    "channels",
+    "alerts",
+    "source",
+    "simulation",
+    "estimation",
+}
 
 
 @dataclass(frozen=True)
@@ -98,7 +109,7 @@ class Rig:
     estimation: dict[str, Any] = field(default_factory=dict)  # raw table, checked by monitor.estimators
 
 
-class _Table:
+class RigTable:
     """A TOML table being read: remembers which keys were used so unknown keys can be reported."""
 
     def __init__(self, data: Any, prefix: str, source: str | None):
@@ -176,7 +187,7 @@ def parse_rig(text: str, source: str | None = None) -> Rig:
         data = tomllib.loads(text)
     except tomllib.TOMLDecodeError as exc:
         raise ConfigError("rig file", source, f"valid TOML ({exc})", source) from exc
-    top = _Table(data, "", source)
+    top = RigTable(data, "", source)
     version = top.raw("format", RIG_FORMAT_VERSION)
     if version != RIG_FORMAT_VERSION:
         raise ConfigError("format", version, f"{RIG_FORMAT_VERSION} (the rig-file format this ejecta reads)", source)
@@ -184,7 +195,7 @@ def parse_rig(text: str, source: str | None = None) -> Rig:
         if name not in _SECTIONS:
             raise ConfigError(name, data[name], "one of the sections " + ", ".join(sorted(_SECTIONS)), source)
 
-    rig_t = _Table(top.raw("rig"), "rig", source)
+    rig_t = RigTable(top.raw("rig"), "rig", source)
     ambient_pa = parse_pressure(rig_t.raw("ambient_pressure", "101.325 kPa abs"), "rig.ambient_pressure", 0.0, source)
     name = rig_t.raw("name")
     if not isinstance(name, str) or not name.strip():
@@ -198,10 +209,10 @@ def parse_rig(text: str, source: str | None = None) -> Rig:
     ambient_t_k = rig_t.quantity("ambient_temperature", "temperature", "20 C")
     rig_t.finish()
 
-    tank = _tank(_Table(top.raw("tank"), "tank", source), ambient_pa)
-    regulator = _regulator(_Table(top.raw("regulator"), "regulator", source), ambient_pa, tank)
-    nozzle = _nozzle(_Table(top.raw("nozzle"), "nozzle", source))
-    vehicle = _vehicle(_Table(top.raw("vehicle"), "vehicle", source))
+    tank = _tank(RigTable(top.raw("tank"), "tank", source), ambient_pa)
+    regulator = _regulator(RigTable(top.raw("regulator"), "regulator", source), ambient_pa, tank)
+    nozzle = _nozzle(RigTable(top.raw("nozzle"), "nozzle", source))
+    vehicle = _vehicle(RigTable(top.raw("vehicle"), "vehicle", source))
     if tank.fill_pressure_pa <= ambient_pa:
         raise ConfigError("tank.fill_pressure", tank.fill_pressure_pa, "a pressure above ambient", source)
     channels = top.raw("channels", [])
@@ -239,7 +250,7 @@ def parse_rig(text: str, source: str | None = None) -> Rig:
     )
 
 
-def _tank(t: _Table, ambient_pa: float) -> TankSpec:
+def _tank(t: RigTable, ambient_pa: float) -> TankSpec:
     spec = TankSpec(
         volume_m3=t.quantity("volume", "volume"),
         fill_pressure_pa=t.pressure("fill_pressure", ambient_pa),
@@ -259,7 +270,7 @@ def _tank(t: _Table, ambient_pa: float) -> TankSpec:
     return spec
 
 
-def _regulator(t: _Table, ambient_pa: float, tank: TankSpec) -> RegulatorSpec:
+def _regulator(t: RigTable, ambient_pa: float, tank: TankSpec) -> RegulatorSpec:
     spec = RegulatorSpec(
         set_pressure_pa=t.pressure("set_pressure", ambient_pa),
         min_inlet_pressure_pa=t.pressure("min_inlet_pressure", ambient_pa),
@@ -274,7 +285,7 @@ def _regulator(t: _Table, ambient_pa: float, tank: TankSpec) -> RegulatorSpec:
     return spec
 
 
-def _nozzle(t: _Table) -> NozzleSpec:
+def _nozzle(t: RigTable) -> NozzleSpec:
     count = t.raw("count", 1)
     if isinstance(count, bool) or not isinstance(count, int) or count < 1:
         raise ConfigError(t.key("count"), count, "a whole number of nozzles, 1 or more", t.source)
@@ -294,7 +305,7 @@ def _nozzle(t: _Table) -> NozzleSpec:
     return spec
 
 
-def _vehicle(t: _Table) -> VehicleSpec:
+def _vehicle(t: RigTable) -> VehicleSpec:
     spec = VehicleSpec(
         dry_mass_kg=t.quantity("dry_mass", "mass"),
         required_delta_v_m_s=t.quantity("required_delta_v", "velocity", None),

@@ -12,15 +12,31 @@ from dataclasses import dataclass, replace
 from typing import Any
 
 from monitor.alerts.rules import CONDITIONS, DIFFERENCE_SIGNALS, RULE_NAME, SEVERITIES, AlertRule, unit_of
-from monitor.config import _Table
+from monitor.config import RigTable
 from monitor.units import Q_, SI_UNITS, parse_pressure, parse_quantity
 
-_COMMON_KEYS = ("name", "condition", "signal", "severity", "on_delay", "off_delay", "latch", "message", "enabled",
-                "shelvable", "only_while")
-_CONDITION_KEYS = {"above": ("threshold", "deadband"), "below": ("threshold", "deadband"),
-                   "rate_above": ("threshold", "deadband", "rate_window"),
-                   "rate_below": ("threshold", "deadband", "rate_window"),
-                   "disagree": ("other", "tolerance", "deadband"), "stale": ("stale_after",), "out_of_range": ()}
+_COMMON_KEYS = (
+    "name",
+    "condition",
+    "signal",
+    "severity",
+    "on_delay",
+    "off_delay",
+    "latch",
+    "message",
+    "enabled",
+    "shelvable",
+    "only_while",
+)
+_CONDITION_KEYS = {
+    "above": ("threshold", "deadband"),
+    "below": ("threshold", "deadband"),
+    "rate_above": ("threshold", "deadband", "rate_window"),
+    "rate_below": ("threshold", "deadband", "rate_window"),
+    "disagree": ("other", "tolerance", "deadband"),
+    "stale": ("stale_after",),
+    "out_of_range": (),
+}
 _SPLIT = re.compile(r"^\s*([-+]?(?:\d+\.?\d*|\.\d+)(?:[eE][-+]?\d+)?)\s*(.*?)\s*$")
 _REFERENCE_WORDS = {"gauge", "g", "(g)", "gage", "abs", "absolute", "a", "(a)"}
 
@@ -59,7 +75,7 @@ def parse_alert_table(data: Any, index: int, ctx: RuleContext, default: AlertRul
     Raises:
         ConfigError: naming the key, the value and what was expected.
     """
-    t = _Table(data, f"alerts[{index}]", ctx.source)
+    t = RigTable(data, f"alerts[{index}]", ctx.source)
     name = t.raw("name")
     if not isinstance(name, str) or not RULE_NAME.match(name):
         raise t.fail("name", "a snake_case name such as 'feed_pressure_low'")
@@ -134,7 +150,7 @@ def parse_alert_table(data: Any, index: int, ctx: RuleContext, default: AlertRul
     return AlertRule(name=name, condition=condition, signal=signal, unit=unit, **given)
 
 
-def _keep_always_on(t: _Table, default: AlertRule, given: dict[str, Any]) -> None:
+def _keep_always_on(t: RigTable, default: AlertRule, given: dict[str, Any]) -> None:
     """An always-on rule (the MEOP one) may be made stricter or quieter to read, never switched off."""
     reason = f"(the {default.name!r} rule is always on)"
     if t.data.get("enabled", True) is not True:
@@ -151,24 +167,27 @@ def _keep_always_on(t: _Table, default: AlertRule, given: dict[str, Any]) -> Non
         raise t.fail("threshold", f"{side} the default's {default.threshold!r} {default.unit} {reason}")
 
 
-def _signal(t: _Table, key: str, value: Any, ctx: RuleContext, channel_only: bool) -> str:
+def _signal(t: RigTable, key: str, value: Any, ctx: RuleContext, channel_only: bool) -> str:
     if channel_only:
         if value not in ctx.channels:
             raise t.fail(key, "the name of a sensor channel: " + ", ".join(sorted(ctx.channels)))
     elif value not in ctx.kinds:
-        raise t.fail(key, "a channel (" + ", ".join(sorted(ctx.channels)) + ") or an estimate such as "
-                     "'usable_propellant_kg' (the list is in docs/alerts.md)")
+        raise t.fail(
+            key,
+            "a channel (" + ", ".join(sorted(ctx.channels)) + ") or an estimate such as "
+            "'usable_propellant_kg' (the list is in docs/alerts.md)",
+        )
     return value
 
 
-def _time(t: _Table, key: str, allow_zero: bool) -> float:
+def _time(t: RigTable, key: str, allow_zero: bool) -> float:
     seconds = parse_quantity(t.data[key], "time", t.key(key), t.source)
     if seconds < 0.0 or (seconds == 0.0 and not allow_zero):
         raise t.fail(key, "a time of 0 s or more" if allow_zero else "a time above 0 s")
     return seconds
 
 
-def _split(t: _Table, key: str, value: Any) -> tuple[float, str]:
+def _split(t: RigTable, key: str, value: Any) -> tuple[float, str]:
     if isinstance(value, (int, float)) and not isinstance(value, bool):
         return float(value), ""
     match = _SPLIT.match(value) if isinstance(value, str) else None
@@ -177,7 +196,7 @@ def _split(t: _Table, key: str, value: Any) -> tuple[float, str]:
     return float(match.group(1)), match.group(2)
 
 
-def _difference(t: _Table, key: str, value: Any, kind: str) -> float:
+def _difference(t: RigTable, key: str, value: Any, kind: str) -> float:
     """A difference of two values of this kind ("2 bar", "3 K", "5 C" = 5 K), SI unit."""
     number, unit = _split(t, key, value)
     if kind == "pressure" and unit.split() and unit.split()[-1].lower() in _REFERENCE_WORDS:
@@ -188,7 +207,7 @@ def _difference(t: _Table, key: str, value: Any, kind: str) -> float:
     return parse_quantity(value, kind, t.key(key), t.source) - zero
 
 
-def _rate(t: _Table, key: str, value: Any, kind: str) -> float:
+def _rate(t: RigTable, key: str, value: Any, kind: str) -> float:
     """A rate of change of a quantity of this kind ("-2 bar/s", "0.5 K/s"), SI unit per second."""
     example = {"pressure": "-2 bar/s", "temperature": "0.5 K/s"}.get(kind, "a value per second, such as '0.1 /s'")
     number, unit = _split(t, key, value)
@@ -210,7 +229,7 @@ def _percent(value: Any) -> float | None:
     return None
 
 
-def _threshold(t: _Table, condition: str, kind: str, signal: str, ctx: RuleContext) -> float:
+def _threshold(t: RigTable, condition: str, kind: str, signal: str, ctx: RuleContext) -> float:
     value = t.raw("threshold", ...)
     if condition.startswith("rate_"):
         return _rate(t, "threshold", value, kind)
@@ -224,7 +243,7 @@ def _threshold(t: _Table, condition: str, kind: str, signal: str, ctx: RuleConte
     return parse_quantity(value, kind, t.key("threshold"), t.source)
 
 
-def _tolerance(t: _Table, key: str, kind: str, signal: str, ctx: RuleContext) -> tuple[float, bool]:
+def _tolerance(t: RigTable, key: str, kind: str, signal: str, ctx: RuleContext) -> tuple[float, bool]:
     value = t.raw(key, ...)
     fraction = _percent(value)
     tolerance, relative = (fraction, True) if fraction is not None else (_difference(t, key, value, kind), False)
@@ -233,7 +252,7 @@ def _tolerance(t: _Table, key: str, kind: str, signal: str, ctx: RuleContext) ->
     return tolerance, relative
 
 
-def _deadband(t: _Table, condition: str, kind: str, signal: str, relative: bool, ctx: RuleContext) -> float:
+def _deadband(t: RigTable, condition: str, kind: str, signal: str, relative: bool, ctx: RuleContext) -> float:
     value = t.data["deadband"]
     if condition.startswith("rate_"):
         band = abs(_rate(t, "deadband", value, kind))

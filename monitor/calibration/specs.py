@@ -8,7 +8,7 @@ from typing import TYPE_CHECKING, Any
 
 import numpy as np
 
-from monitor.config import Rig, _Table
+from monitor.config import Rig, RigTable
 from monitor.errors import ConfigError, PhysicsError
 from monitor.physics import flow_units
 from monitor.units import SI_UNITS, parse_pressure, parse_quantity
@@ -87,7 +87,7 @@ class ChannelSpec:
 class _Units:
     """Affine unit maps for one channel, through monitor.units (pint) and monitor.physics.flow_units."""
 
-    def __init__(self, rig: Rig, t: _Table, reference: Any, gas_factor: float):
+    def __init__(self, rig: Rig, t: RigTable, reference: Any, gas_factor: float):
         self.rig, self.t, self.reference, self.gas_factor = rig, t, reference, gas_factor
         self.flow_seen = False
         self.unit = ""  # the channel's unit, once read
@@ -194,14 +194,14 @@ class _Units:
         return span
 
 
-def _finite(t: _Table, name: str, default: Any = ..., low: float = -math.inf) -> Any:
+def _finite(t: RigTable, name: str, default: Any = ..., low: float = -math.inf) -> Any:
     value = t.number(name, default, low=low)
     if value is not None and not math.isfinite(value):
         raise ConfigError(t.key(name), value, "a finite number", t.source)
     return value
 
 
-def _numbers(t: _Table, name: str, minimum: int) -> tuple[float, ...]:
+def _numbers(t: RigTable, name: str, minimum: int) -> tuple[float, ...]:
     value = t.raw(name)
     if (
         not isinstance(value, list)
@@ -212,7 +212,7 @@ def _numbers(t: _Table, name: str, minimum: int) -> tuple[float, ...]:
     return tuple(float(v) for v in value)
 
 
-def _calibration(t: _Table, units: _Units, kind: str, scale: float, offset: float) -> Calibration:
+def _calibration(t: RigTable, units: _Units, kind: str, scale: float, offset: float) -> Calibration:
     cal_kind = t.choice("kind", tuple(KINDS))
 
     def in_unit(name: str) -> float:  # a level given with a unit, in the channel's unit
@@ -255,7 +255,7 @@ def _calibration(t: _Table, units: _Units, kind: str, scale: float, offset: floa
     return cal
 
 
-def _accuracy(t: _Table, units: _Units, kind: str) -> Accuracy:
+def _accuracy(t: RigTable, units: _Units, kind: str) -> Accuracy:
     acc = Accuracy(
         percent_of_reading=_finite(t, "percent_of_reading", 0.0, low=0.0),
         percent_of_full_scale=_finite(t, "percent_of_full_scale", 0.0, low=0.0),
@@ -275,7 +275,7 @@ def _accuracy(t: _Table, units: _Units, kind: str) -> Accuracy:
 
 
 def _channel(rig: Rig, index: int, data: Any) -> ChannelSpec:
-    t = _Table(data, f"channels[{index}]", rig.source_path)
+    t = RigTable(data, f"channels[{index}]", rig.source_path)
     src = t.source
     name = t.raw("name")
     if not isinstance(name, str) or not _NAME.match(name):
@@ -311,7 +311,7 @@ def _channel(rig: Rig, index: int, data: Any) -> ChannelSpec:
     if units.kind_of(display, t.key("display_unit")) != kind:
         raise ConfigError(t.key("display_unit"), display, f"a unit of {kind}, like unit", src)
     d_scale, d_offset = units.affine(display, kind, t.key("display_unit"), display, with_gas_factor=False)
-    calibration = _calibration(_Table(t.raw("calibration"), t.key("calibration"), src), units, kind, scale, offset)
+    calibration = _calibration(RigTable(t.raw("calibration"), t.key("calibration"), src), units, kind, scale, offset)
     valid = t.raw("valid_range", None)
     valid_si = (-math.inf, math.inf)
     if valid is not None:
@@ -322,11 +322,11 @@ def _channel(rig: Rig, index: int, data: Any) -> ChannelSpec:
             raise ConfigError(t.key("valid_range"), valid, "[low, high] with low below high", src)
     accuracy = t.raw("accuracy", None)
     if accuracy is not None:
-        accuracy = _accuracy(_Table(accuracy, t.key("accuracy"), src), units, kind)
+        accuracy = _accuracy(RigTable(accuracy, t.key("accuracy"), src), units, kind)
     tare = t.raw("tare", None)
     samples = 0
     if tare is not None:
-        tt = _Table(tare, t.key("tare"), src)
+        tt = RigTable(tare, t.key("tare"), src)
         samples = tt.raw("samples")
         if isinstance(samples, bool) or not isinstance(samples, int) or samples < 1:
             raise ConfigError(tt.key("samples"), samples, "a whole number of samples, 1 or more", src)

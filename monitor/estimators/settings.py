@@ -11,7 +11,7 @@ import math
 from dataclasses import dataclass
 from typing import Any
 
-from monitor.config import Rig, _Table
+from monitor.config import Rig, RigTable
 from monitor.errors import ConfigError
 from monitor.units import G0_M_S2, parse_quantity
 
@@ -66,7 +66,7 @@ class EstimationSettings:
     discharge_coefficient_std: float = 0.0
 
 
-def _rate_hz(t: _Table, name: str, default: Any) -> float | None:
+def _rate_hz(t: RigTable, name: str, default: Any) -> float | None:
     """A rate such as "10 Hz" in 1/s (read through its period), or default when absent."""
     value = t.raw(name, default)
     if value is None:
@@ -82,14 +82,14 @@ def _rate_hz(t: _Table, name: str, default: Any) -> float | None:
     return 1.0 / period_s
 
 
-def _at_least(t: _Table, name: str, kind: str, default: str, low: float = 0.0, strict: bool = False) -> float:
+def _at_least(t: RigTable, name: str, kind: str, default: str, low: float = 0.0, strict: bool = False) -> float:
     value = t.quantity(name, kind, default, positive=False)
     if value < low or (strict and value == low):
         raise t.fail(name, f"a {kind} {'above' if strict else 'of at least'} {low:g} (SI)")
     return value
 
 
-def _exhaust_velocity(t: _Table) -> tuple[float | None, float]:
+def _exhaust_velocity(t: RigTable) -> tuple[float | None, float]:
     if "isp" in t.data and "exhaust_velocity" in t.data:
         raise t.fail("isp", "either isp or exhaust_velocity, not both")
     if "isp" in t.data:
@@ -104,12 +104,13 @@ def _exhaust_velocity(t: _Table) -> tuple[float | None, float]:
         raise t.fail("exhaust_velocity", "'nozzle' or a velocity such as '540 m/s'")
     u_m_s = _at_least(t, "exhaust_velocity", "velocity", "0 m/s", strict=True)
     if "exhaust_velocity_uncertainty" not in t.data:
-        raise t.fail("exhaust_velocity_uncertainty", "the standard uncertainty of the configured exhaust "
-                     "velocity, such as '10 m/s'")
+        raise t.fail(
+            "exhaust_velocity_uncertainty", "the standard uncertainty of the configured exhaust velocity, such as '10 m/s'"
+        )
     return u_m_s, _at_least(t, "exhaust_velocity_uncertainty", "velocity", "0 m/s")
 
 
-def _reserve(t: _Table) -> tuple[float, float]:
+def _reserve(t: RigTable) -> tuple[float, float]:
     value = t.raw("reserve", "0 g")
     if isinstance(value, str) and value.strip().endswith("%"):
         try:
@@ -129,14 +130,13 @@ def parse_estimation(rig: Rig) -> EstimationSettings:
         ConfigError: an unknown key, a value of the wrong kind or out of range, or a configured exhaust
             velocity (or isp) without its uncertainty.
     """
-    t = _Table(rig.estimation, "estimation", rig.source_path)
+    t = RigTable(rig.estimation, "estimation", rig.source_path)
     u, u_std = _exhaust_velocity(t)
     t.raw("isp_uncertainty", None)
     t.raw("exhaust_velocity_uncertainty", None)
     if u is None and ("isp_uncertainty" in t.data or "exhaust_velocity_uncertainty" in t.data):
         name = "isp_uncertainty" if "isp_uncertainty" in t.data else "exhaust_velocity_uncertainty"
-        raise t.fail(name, "no uncertainty key with exhaust_velocity = 'nozzle' (the nozzle model's comes from "
-                     "the sensors)")
+        raise t.fail(name, "no uncertainty key with exhaust_velocity = 'nozzle' (the nozzle model's comes from the sensors)")
     reserve_kg, reserve_fraction = _reserve(t)
     settings = EstimationSettings(
         exhaust_velocity_m_s=u,
