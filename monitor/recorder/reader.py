@@ -28,6 +28,8 @@ from monitor.recorder.format import (
 )
 from monitor.samples import Batch, LinkEvent
 
+NOTE_SCAN_BLOCK = 1 << 22  # bytes read at a time when scanning for notes
+
 
 @dataclass
 class RawLines:
@@ -187,22 +189,35 @@ class RunLog:
         """The note rows (link events, alerts, ...), optionally only those of one kind letter.
 
         Notes are rare, so instead of parsing every row the body is scanned for lines that start with a note
-        letter (a regular expression over a memory map), and only those lines are read as CSV.
+        letter (a regular expression over blocks of the file: memory stays small however long the log), and
+        only those lines are read as CSV.
         """
         letters = "".join(c for c in "abcdefghijklmnopqrstuvwxyz" if c not in LINE_KINDS) if kind is None else kind
-        pattern = re.compile(rb"\n([" + re.escape(letters).encode("ascii") + rb"]),[^\n]*")
         out: list[Note] = []
-        with open(self.path, "rb") as f, mmap.mmap(f.fileno(), 0, access=mmap.ACCESS_READ) as body:
-            for match in pattern.finditer(body, max(self.data_start - 1, 0), self.data_end):
-                row = next(csv.reader([match.group(0)[1:].decode("ascii", "replace")]))
+        if self.data_end <= self.data_start:
+            return out
+        with open(self.path, "rb") as f:
+            for offset, line in _note_lines(f, letters.encode("ascii"), max(self.data_start - 1, 0), self.data_end):
+                row = next(csv.reader([line.decode("ascii", "replace")]))
                 try:
                     text = unescape_text(row[-1]).decode("utf-8", "replace")
                     t_s = float(row[1]) if row[1] else math.nan
                 except (ValueError, IndexError):
-                    line = self._line(body[self.data_start : match.start() + 1].count(b"\n"))
-                    raise LogFormatError(f"{self.path}, line {line}: the text is not validly escaped") from None
+                    line_number = self._line(_count_lines(f, self.data_start, offset))
+                    raise LogFormatError(f"{self.path}, line {line_number}: the text is not validly escaped") from None
                 out.append(Note(row[0], t_s, row[-2], text))
         return out
+
+    def line_time_span(self) -> tuple[float, float]:
+        """t_s of the first and the last line row ('s' or 'b'), read from the file's two ends; NaN if none."""
+        if self.data_end <= self.data_start:
+            return math.nan, math.nan
+        with open(self.path, "rb") as f, mmap.mmap(f.fileno(), 0, access=mmap.ACCESS_READ) as body:
+            starts = _line_starts(body, self.data_start, self.data_end)
+            first = next((t for t in map(lambda s: _line_time(body, s), starts) if t is not None), math.nan)
+            ends = _line_starts_backwards(body, self.data_start, self.data_end)
+            last = next((t for t in map(lambda s: _line_time(body, s), ends) if t is not None), math.nan)
+        return first, last
 
     def events(self) -> list[LinkEvent]:
         """The link events ('e' rows)."""
@@ -275,6 +290,76 @@ class _Window(io.RawIOBase):
     def close(self) -> None:
         self._f.close()
         super().close()
+
+
+def _note_lines(f, letters: bytes, start: int, end: int, block: int = NOTE_SCAN_BLOCK) -> Iterator[tuple[int, bytes]]:
+    """(offset, row) of each row in the file's bytes start..end that begins with one of `letters` and a comma,
+    in file order; byte start must be a line feed (or the byte before the body). The file is read in blocks
+    and searched with a regular expression; a row cut by a block's end is searched with the next block."""
+    first = re.escape(letters) if len(letters) == 1 else b"[" + re.escape(letters) + b"]"  # a literal is faster
+    pattern = re.compile(rb"\n(" + first + rb",[^\n]*)(?=\n)")
+    position = start
+    while position < end:
+        f.seek(position)
+        data = f.read(min(block, end - position))
+        if not data:
+            return
+        final = position + len(data) >= end
+        last = len(data) - 1 if final else data.rfind(b"\n")  # rows up to here are complete
+        if last <= 0 and not final:  # one row longer than the block: read more at once
+            block *= 2
+            continue
+        for match in pattern.finditer(data, 0, last + 1):
+            yield position + match.start(1), match.group(1)
+        if final:
+            return
+        position += last  # the next block starts at this line feed
+
+
+def _count_lines(f, start: int, offset: int) -> int:
+    """Line feeds in the file's bytes start..offset."""
+    f.seek(start)
+    count, left = 0, offset - start
+    while left > 0:
+        data = f.read(min(NOTE_SCAN_BLOCK, left))
+        if not data:
+            break
+        count += data.count(b"\n")
+        left -= len(data)
+    return count
+
+
+def _line_starts(body, start: int, end: int) -> Iterator[int]:
+    """Offsets of the rows in body[start:end], first to last."""
+    at = start
+    while at < end:
+        yield at
+        found = body.find(b"\n", at, end)
+        if found < 0:
+            return
+        at = found + 1
+
+
+def _line_starts_backwards(body, start: int, end: int) -> Iterator[int]:
+    """Offsets of the rows in body[start:end] (which ends in a line feed), last to first."""
+    at = end - 1
+    while at > start:
+        found = body.rfind(b"\n", start, at)
+        yield start if found < 0 else found + 1
+        at = found
+        if found < 0:
+            return
+
+
+def _line_time(body, start: int) -> float | None:
+    """t_s of the row at start if it is a line row ('s' or 'b') with a readable time; None otherwise."""
+    head = body[start : start + 64].split(b",", 2)
+    if len(head) < 3 or head[0].decode("ascii", "replace") not in LINE_KINDS:
+        return None
+    try:
+        return float(head[1])
+    except ValueError:
+        return None
 
 
 def _last_line_end(f, start: int, size: int) -> int:

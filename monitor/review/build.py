@@ -10,7 +10,6 @@ from pathlib import Path
 
 import numpy as np
 
-from monitor.clock import FakeClock
 from monitor.config import Rig, parse_rig
 from monitor.engine import Engine
 from monitor.errors import LogFormatError, PhysicsError
@@ -19,9 +18,10 @@ from monitor.recorder import RunLog
 from monitor.review import summary as S
 from monitor.review.collect import CUMULATIVE, Collector
 from monitor.review.damage import copy_before, find_damage
-from monitor.sources.replay import ReplaySource, rig_channel_specs
+from monitor.sources.log_stream import LogStream
+from monitor.sources.replay import rig_channel_specs
 
-BATCH_ROWS = 200_000
+BATCH_ROWS = 50_000  # rows per chunk: about 50 MB of working set; larger chunks are no faster
 PLOTTED_ESTIMATES = ("thrust_estimated_n", "thrust_measured_n", "mass_flow_filtered_kg_s", "propellant_flow_gauge_kg",
                      "propellant_pvt_gauge_kg", "leak_rate_kg_s", "firing")
 
@@ -72,7 +72,7 @@ def review_log(path: str | Path, with_prediction: bool = False, batch_rows: int 
 
 def _review(shown: Path, log: RunLog, path: Path, warnings, with_prediction, batch_rows) -> Review:
     rig = parse_rig(log.header.rig_text, f"{shown} (the rig file in its header)")
-    source = ReplaySource(path, FakeClock(), speed=math.inf, max_rows=batch_rows)
+    source = LogStream(log, chunk_rows=batch_rows)
     channels = rig_channel_specs(rig, source.channels, shown)
     engine = Engine(rig, channels, trend_names=("firing",))
     health = LinkHealth(channels)

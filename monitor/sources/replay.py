@@ -8,14 +8,13 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from drivers.base import LineStatus, RawBatch
+from drivers.base import RawBatch
 from monitor.clock import Clock
 from monitor.errors import LogFormatError
 from monitor.recorder.reader import RunLog
 from monitor.samples import Batch, LinkEvent, SourceReading
 from monitor.sources.base import SampleSource
-
-_STATUS_CODES = {s.name.lower(): int(s) for s in LineStatus}
+from monitor.sources.log_stream import line_rows, table_columns
 
 
 class Pacer:
@@ -122,31 +121,15 @@ class ReplaySource(SampleSource):
         self._event_cursor = 0
 
     def _load(self) -> _Rows:
-        names = [c.column for c in self.header.channels] + [c.quality_column for c in self.header.channels]
-        table = self.log.table(columns=["kind", "t_s", "device_t_s", "seq", *names, "status"])
-        kind = table["kind"].to_numpy()
-        lines = np.isin(kind, ("s", "b"))
-        line_table = table[lines]
-        is_sample = line_table["kind"].to_numpy() == "s"
-        codes = line_table["status"].map(_STATUS_CODES)  # a hashed lookup per row inside pandas, no Python loop
-        status = codes.fillna(int(LineStatus.GARBAGE)).to_numpy(dtype=np.uint8)
-        samples = line_table[is_sample]
-        seq = samples["seq"].to_numpy(dtype=np.float64)
-        batch = Batch(
-            t_s=samples["t_s"].to_numpy(dtype=np.float64),
-            values={c.name: samples[c.column].to_numpy(dtype=np.float64) for c in self.header.channels},
-            quality={c.name: samples[c.quality_column].fillna(0).to_numpy().astype(np.uint8) for c in self.header.channels},
-            device_time_s=samples["device_t_s"].to_numpy(dtype=np.float64),
-            sequence=np.where(np.isnan(seq), -1, seq).astype(np.int64),
-        )
-        sample_index = np.where(is_sample, np.cumsum(is_sample) - 1, -1)
+        rows = line_rows(self.log.table(columns=table_columns(self.log)), self.header.channels)
+        sample_index = np.where(rows.is_sample, np.cumsum(rows.is_sample) - 1, -1)
         events = self.log.events()
         return _Rows(
-            t_s=line_table["t_s"].to_numpy(dtype=np.float64),
-            status=status,
-            is_sample=is_sample,
+            t_s=rows.t_s,
+            status=rows.status,
+            is_sample=rows.is_sample,
             sample_index=sample_index,
-            samples=batch,
+            samples=rows.samples,
             events=events,
             event_t_s=np.array([e.t_s for e in events], dtype=np.float64),
         )

@@ -1,25 +1,40 @@
 """Measure `ejecta review` on a one-hour 1 kHz run log against pandas.read_csv of the same file; prints the ratio.
 
-Run: python tests/review/measure_review.py [HOURS]  (writes the log to a temporary folder, deleted afterwards).
-The log comes from the benchmark chain (monitor.bench.Chain: framing, parsing, calibration, engine, recorder).
+Run: python tests/review/measure_review.py [HOURS] [--log PATH]
+Without --log, writes a log of HOURS (default 1) to a temporary folder, deleted afterwards; with --log, uses
+(or first creates) PATH. The log comes from the benchmark chain (monitor.bench.Chain: framing, parsing,
+calibration, engine, recorder). Each measurement runs in a fresh Python process, so peak memory is its own:
+  pandas   pandas.read_csv(path, skiprows=header lines), timed after `import pandas`;
+  review   monitor.review.review_log(path), timed after importing ejecta (CoolProp's import, about 2 s, is
+           start-up, not work on the file; the property tables are built inside the timing);
+  command  the whole `ejecta review PATH` command, start-up included, wall clock.
 """
 
 from __future__ import annotations
 
-import resource
+import argparse
+import json
+import subprocess
 import sys
 import tempfile
 import time
 from pathlib import Path
 
-import pandas as pd
-
-sys.path.insert(0, str(Path(__file__).resolve().parents[2]))
+ROOT = Path(__file__).resolve().parents[2]
+sys.path.insert(0, str(ROOT))
 
 from monitor.bench import Chain, bench_rig, synthetic_lines  # noqa: E402
 from monitor.clock import FakeClock, RunClock  # noqa: E402
-from monitor.recorder import RunLog  # noqa: E402
-from monitor.review import review_log  # noqa: E402
+
+CHILD = """
+import json, resource, sys, time
+sys.path.insert(0, {root!r})
+{imports}
+start = time.perf_counter()
+{work}
+seconds = time.perf_counter() - start
+print(json.dumps({{"seconds": seconds, "peak_mb": resource.getrusage(resource.RUSAGE_SELF).ru_maxrss / 1e3}}))
+"""
 
 
 def make_log(path: Path, hours: float, rate_hz: float = 1000.0, chunk_s: float = 0.05) -> None:
@@ -44,26 +59,42 @@ def make_log(path: Path, hours: float, rate_hz: float = 1000.0, chunk_s: float =
     chain.close()
 
 
+def _child(imports: str, work: str) -> dict:
+    code = CHILD.format(root=str(ROOT), imports=imports, work=work)
+    out = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, check=True)
+    return json.loads(out.stdout.strip().splitlines()[-1])
+
+
+def measure(path: Path) -> dict:
+    """Seconds and peak RSS of pandas.read_csv, review_log and the whole command on one log."""
+    from monitor.recorder import RunLog
+
+    skip = RunLog.open(path).header_lines
+    pandas = _child("import pandas as pd", f"rows = len(pd.read_csv({str(path)!r}, skiprows={skip}))")
+    review = _child("import CoolProp.CoolProp\nfrom monitor.review import review_log", f"review_log({str(path)!r})")
+    start = time.perf_counter()
+    subprocess.run([sys.executable, "-m", "monitor", "review", str(path)], cwd=ROOT, check=True,
+                   stdout=subprocess.DEVNULL)
+    command_s = time.perf_counter() - start
+    return {"pandas": pandas, "review": review, "command_s": command_s}
+
+
 def main() -> int:
-    hours = float(sys.argv[1]) if len(sys.argv) > 1 else 1.0
+    parser = argparse.ArgumentParser(description=__doc__.splitlines()[0])
+    parser.add_argument("hours", nargs="?", type=float, default=1.0)
+    parser.add_argument("--log", type=Path, help="use this log (created first if missing)")
+    args = parser.parse_args()
     with tempfile.TemporaryDirectory() as folder:
-        path = Path(folder) / "hour.ejlog"
-        start = time.perf_counter()
-        make_log(path, hours)
-        print(f"wrote {path.stat().st_size / 1e6:,.0f} MB of run log in {time.perf_counter() - start:,.1f} s")
-        log = RunLog.open(path)
-        start = time.perf_counter()
-        frame = pd.read_csv(path, skiprows=log.header_lines)
-        pandas_s = time.perf_counter() - start
-        rows = len(frame)
-        del frame
-        start = time.perf_counter()
-        review = review_log(path)
-        review_s = time.perf_counter() - start
-    peak_mb = resource.getrusage(resource.RUSAGE_SELF).ru_maxrss / 1e3
-    print(f"rows {rows:,}; pandas.read_csv {pandas_s:.2f} s; review {review_s:.2f} s; ratio {review_s / pandas_s:.2f}")
-    print(f"pulses {review.summary.firing.pulse_count}, burn {review.summary.firing.burn_time_s:.1f} s; "
-          f"peak RSS {peak_mb:,.0f} MB")
+        path = args.log or Path(folder) / "hour.ejlog"
+        if not path.exists():
+            start = time.perf_counter()
+            make_log(path, args.hours)
+            print(f"wrote {path.stat().st_size / 1e6:,.0f} MB of run log in {time.perf_counter() - start:,.1f} s")
+        m = measure(path)
+    p, r = m["pandas"], m["review"]
+    print(f"pandas.read_csv {p['seconds']:.2f} s (peak RSS {p['peak_mb']:,.0f} MB); "
+          f"review {r['seconds']:.2f} s (peak RSS {r['peak_mb']:,.0f} MB); ratio {r['seconds'] / p['seconds']:.2f}")
+    print(f"whole `ejecta review` command, start-up included: {m['command_s']:.2f} s")
     return 0
 
 
