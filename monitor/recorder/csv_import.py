@@ -199,7 +199,7 @@ def _channel_specs(rig: Rig, column_map: Mapping[str, Any], source: str):
             table = {"name": name, "field": column, "unit": unit, "calibration": {"kind": "identity"}}
             base = known.get(name, {})
             table.update({k: base[k] for k in _COPIED if k in base})
-            if _is_flow(unit):
+            if _is_flow(unit) or _is_flow(base.get("unit")):  # the column's unit, or the lent valid_range's
                 table.update({k: base[k] for k in _FLOW_KEYS if k in base})
         else:
             raise ConfigError(f"column_map[{column!r}]", entry, "(channel name, unit) or a [[channels]] table", source)
