@@ -42,6 +42,9 @@ class RawBatch:
         device_time_s: the device's timestamp per line in seconds (NaN where absent), or None.
         sequence: the device's sequence number per line (-1 where absent), int64, or None.
         events: link events during this read (connected, lost, reconnecting, ...).
+        missing: True where a good line lacks a field (e.g. a Modbus unit that did not answer in a poll the
+            others answered), or None when every good line has every field. Such fields are NaN in values
+            and calibrate to Quality.MISSING.
     """
 
     t_s: np.ndarray
@@ -52,6 +55,7 @@ class RawBatch:
     device_time_s: np.ndarray | None = None
     sequence: np.ndarray | None = None
     events: list[LinkEvent] = field(default_factory=list)
+    missing: np.ndarray | None = None  # (lines, fields) bool, True where a good line lacks a field; or None
 
     def __len__(self) -> int:
         return len(self.lines)

@@ -55,6 +55,7 @@ REOPEN_INTERVAL_S = 0.5  # a vanished port is tried again at most this often
 _READ_SLICE_S = 0.005  # the port's own read timeout; the per-request deadline is kept by a pyserial Timeout
 _FIELD_NAME = re.compile(r"^[A-Za-z_][A-Za-z0-9_]*$")
 _Outcome = tuple[LineStatus, "list[int] | None", bytes]  # status, registers (None if bad), record text
+_Row = tuple[float, bytes, LineStatus, np.ndarray, np.ndarray]  # t_s, record, status, values, missing mask
 
 
 def _is_word(value: object) -> bool:
@@ -280,6 +281,7 @@ class ModbusLinkStats:
 
     polls: int = 0
     answered_polls: int = 0  # polls in which every request got a good answer
+    partial_polls: int = 0  # polls in which some requests got a good answer and some did not
     no_response: int = 0  # requests that got nothing back
     crc_errors: int = 0  # answers whose CRC did not match
     exception_responses: int = 0  # answers that were Modbus exceptions (illegal address, device failure, ...)
@@ -292,9 +294,11 @@ class ModbusRtuDriver(Driver):
     """Polls every configured register once per poll period; one RawBatch row per poll.
 
     A row's line is a text record of what came off the wire, e.g. b"u1 hr0=0x4120,0x0000 u2 ir4=no_response".
-    A row is OK only when every request of the poll got a good answer; otherwise its status is that of the
-    first failure (NO_RESPONSE: nothing came back; GARBAGE: bad CRC, exception response, or malformed) and
-    all its values are NaN. A poll waits at most (timeout + the answer's time on the wire) per request.
+    A row is OK when at least one request of the poll got a good answer: the fields of the requests that
+    failed are NaN and marked in the row's `missing` mask, so one faulty unit does not blind the others.
+    When no request got a good answer, the row's status is that of the first failure (NO_RESPONSE: nothing
+    came back; GARBAGE: bad CRC, exception response, or malformed) and all its values are NaN. A poll waits
+    at most (timeout + the answer's time on the wire) per request.
     """
 
     def __init__(self, config: ModbusRtuConfig, clock: Clock):
@@ -377,10 +381,11 @@ class ModbusRtuDriver(Driver):
             self._clock.sleep(min(wake, deadline) - now)
             now = self._clock.now()
 
-    def _batch(self, rows: list[tuple[float, bytes, LineStatus, np.ndarray]]) -> RawBatch:
+    def _batch(self, rows: list[_Row]) -> RawBatch:
         events, self._events = self._events, []
         if not rows:
             return RawBatch.empty(self.fields, events)
+        missing = np.vstack([r[4] for r in rows])
         return RawBatch(
             t_s=np.array([r[0] for r in rows], dtype=float),
             lines=[r[1] for r in rows],
@@ -388,12 +393,15 @@ class ModbusRtuDriver(Driver):
             fields=self.fields,
             values=np.vstack([r[3] for r in rows]),
             events=events,
+            missing=missing if missing.any() else None,
         )
 
-    def _poll(self) -> tuple[float, bytes, LineStatus, np.ndarray]:
+    def _poll(self) -> _Row:
         values = np.full(len(self.fields), np.nan)
+        missing = np.zeros(len(self.fields), dtype=bool)
         parts: list[bytes] = []
-        status = LineStatus.OK
+        failure: LineStatus | None = None
+        answered = 0
         silent: list[int] = []
         for request in self.requests:
             if self._port is None:
@@ -402,9 +410,11 @@ class ModbusRtuDriver(Driver):
                 outcome, registers, text = self._transact(request)
             parts.append(f"u{request.unit_id} {_TABLE_CODE[request.table]}{request.address}=".encode() + text)
             if registers is None:
-                status = outcome if status == LineStatus.OK else status
+                failure = outcome if failure is None else failure
                 silent.append(request.unit_id)
+                missing[list(request.members)] = True
                 continue
+            answered += 1
             for i in request.members:
                 spec = self.config.registers[i]
                 start = spec.address - request.address
@@ -413,15 +423,20 @@ class ModbusRtuDriver(Driver):
         t_s = self._clock.now()
         # Keep the cadence; after a slow poll or a late caller, poll again at once but never in a burst.
         self._next_poll_s = max(self._next_poll_s + self.config.poll_period_s, t_s)
-        self._account(status, t_s, silent)
+        status = LineStatus.OK if answered else failure
+        self._account(status, failure is not None, t_s, silent)
         if status != LineStatus.OK:
             values[:] = np.nan
-        return t_s, b" ".join(parts), status, values
+            missing[:] = False  # a bad row has no fields at all
+        return t_s, b" ".join(parts), status, values, missing
 
-    def _account(self, status: LineStatus, t_s: float, silent: list[int]) -> None:
+    def _account(self, status: LineStatus, partial: bool, t_s: float, silent: list[int]) -> None:
         self.stats.polls += 1
         if status == LineStatus.OK:
-            self.stats.answered_polls += 1
+            if partial:
+                self.stats.partial_polls += 1
+            else:
+                self.stats.answered_polls += 1
             self._failed_polls = 0
             if self._link != "up":
                 self._link = "up"

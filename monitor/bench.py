@@ -102,7 +102,7 @@ class Chain:
         start = clock()
         raw = self.parser.parse(self.splitter.feed(chunk, t_s))
         parsed = clock()
-        reading = SourceReading(raw, self.calibrator.apply(raw))
+        reading = SourceReading(raw, self.calibrator.apply(raw, raw.missing))
         calibrated = clock()
         if self.writer is not None:
             self.writer.on_reading(reading)

@@ -31,7 +31,7 @@ class LiveSource(SampleSource):
 
     def read(self, timeout_s: float = 0.05) -> SourceReading:
         raw = self.driver.read(timeout_s)
-        return SourceReading(raw=raw, batch=self.calibrator.apply(raw))
+        return SourceReading(raw=raw, batch=self.calibrator.apply(raw, raw.missing))
 
     def close(self) -> None:
         if self._opened:

@@ -460,6 +460,38 @@ timeout = "0.1 s"
     return ModbusRtuConfig.from_source_table(tomllib.loads(text)["source"], "rig.toml")
 
 
+def _rig_text(port: str, extra_registers: str = "") -> str:
+    """A whole rig reading _config's registers: tank pressure from P_tank, and a channel `spare` from a
+    register named `nowhere` when extra_registers lists one."""
+    source = f"""
+[source]
+driver = "modbus_rtu"
+port = "{port}"
+baud = 19200
+parity = "even"
+poll_rate = "20 Hz"
+timeout = "0.1 s"
+{RIG_REGISTERS}{extra_registers}
+"""
+    channels = """
+[[channels]]
+name = "tank_pressure"
+role = "tank_pressure"
+field = "P_tank"
+unit = "bar gauge"
+calibration = { kind = "identity" }
+"""
+    if "nowhere" in extra_registers:
+        channels += """
+[[channels]]
+name = "spare"
+field = "nowhere"
+unit = "1"
+calibration = { kind = "identity" }
+"""
+    return MINIMAL_RIG + source + channels
+
+
 @pytest.fixture
 def line(tmp_path):
     cable = Cable(tmp_path)
@@ -471,11 +503,14 @@ def line(tmp_path):
         cable.close()
 
 
-def _read_rows(driver, polls: int, timeout_s: float = 0.05):
-    """Call read() until `polls` rows came back (bounded), returning (rows, events) gathered."""
+def _read_rows(driver, polls: int, timeout_s: float = 0.05, batches: list | None = None):
+    """Call read() until `polls` rows came back (bounded), returning (rows, events) gathered; the RawBatches
+    themselves are appended to `batches` when given."""
     t, lines, status, values, events = [], [], [], [], []
     for _ in range(polls * 20):
         batch = driver.read(timeout_s)
+        if batches is not None and len(batch):
+            batches.append(batch)
         t.extend(batch.t_s)
         lines.extend(batch.lines)
         status.extend(batch.status)
@@ -541,15 +576,20 @@ def test_corrupted_answer_is_counted_not_raised(line):
     with ModbusRtuDriver(_config(str(cable.link)), FakeClock(0.0)) as driver:
         _read_rows(driver, 1)
         slave.corrupt_answers = 1
-        _, lines, status, values, _ = _read_rows(driver, 2)
-    assert list(status) == [LineStatus.GARBAGE, LineStatus.OK]
+        batches: list = []
+        _, lines, status, values, _ = _read_rows(driver, 2, batches=batches)
+    # The first request (hr0..4: P_tank, P_feed, T_code) came back corrupted; the other two were good, so the
+    # row is good with those three fields missing, and the next poll is whole again.
+    assert list(status) == [LineStatus.OK, LineStatus.OK]
     # unit 01, function 03, 10 bytes, then 0x41 with all bits flipped (0xBE): the bytes as they came are kept
     assert lines[0].startswith(b"u1 hr0=crc_error:01030abe200000")
-    assert np.isnan(values[0]).all() and values[1][0] == 10.0
-    assert driver.stats.crc_errors == 1
+    assert np.isnan(values[0][:3]).all() and values[0][4] == pytest.approx(12.34) and values[1][0] == 10.0
+    missing = np.vstack([b.missing if b.missing is not None else np.zeros((len(b), 5), bool) for b in batches])
+    assert missing.tolist() == [[True, True, True, False, False], [False] * 5]
+    assert driver.stats.crc_errors == 1 and driver.stats.partial_polls == 1 and driver.stats.answered_polls == 2
 
 
-def test_exception_answer_makes_the_poll_garbage(line):
+def test_a_unit_that_always_refuses_leaves_the_other_fields_flowing(line):
     cable, _slave = line
     missing = """
 [[source.registers]]
@@ -558,14 +598,46 @@ unit_id = 1
 address = 300
 type = "uint16"
 """
-    with ModbusRtuDriver(_config(str(cable.link), missing), FakeClock(0.0)) as driver:
-        _, lines, status, values, events = _read_rows(driver, 3)
-    assert list(status) == [LineStatus.GARBAGE] * 3
+    config = _config(str(cable.link), missing)
+    with ModbusRtuDriver(config, FakeClock(0.0)) as driver:
+        batches: list = []
+        _, lines, status, values, events = _read_rows(driver, 3, batches=batches)
+    assert list(status) == [LineStatus.OK] * 3  # the other requests answered: the rows are good
     # Modbus Application Protocol V1.1b3, 7: exception code 02 = ILLEGAL DATA ADDRESS, function 0x83
     assert b"u1 hr300=exception_02:0183" in lines[0]
     assert b"u1 hr0=0x4120" in lines[0]  # what did arrive stays in the record
-    assert driver.stats.exception_responses == 3
-    assert [e.kind for e in events] == ["lost"]
+    nowhere = config.fields.index("nowhere")
+    assert np.isnan(values[:, nowhere]).all() and values[:, 0].tolist() == [10.0] * 3
+    assert all(b.missing[:, nowhere].all() and b.missing.sum() == len(b) for b in batches)
+    assert driver.stats.exception_responses == 3 and driver.stats.partial_polls == 3
+    assert [e.kind for e in events] == ["connected"]  # the link is up: units answer
+
+
+def test_a_missing_field_calibrates_to_missing_and_the_rest_to_values(line):
+    """Through the live source: the field of the refusing request is flagged MISSING, the others are good."""
+    from monitor.calibration import Calibrator, parse_channels
+    from monitor.samples import Quality
+    from monitor.sources.live import LiveSource
+
+    cable, _slave = line
+    extra = """
+[[source.registers]]
+field = "nowhere"
+unit_id = 1
+address = 300
+type = "uint16"
+"""
+    rig = parse_rig(_rig_text(str(cable.link), extra), "rig.toml")
+    driver = ModbusRtuDriver.from_rig(rig, FakeClock(0.0))
+    channels = parse_channels(rig, driver.fields)
+    source = LiveSource(driver, Calibrator(channels, driver.fields), rig.text)
+    with source:
+        readings = [source.read(0.05) for _ in range(20)]
+    batches = [r.batch for r in readings if r is not None and len(r.batch)]
+    assert batches
+    for batch in batches:
+        assert (batch.quality["spare"] == Quality.MISSING).all() and np.isnan(batch.values["spare"]).all()
+        assert (batch.quality["tank_pressure"] == 0).all() and np.isfinite(batch.values["tank_pressure"]).all()
 
 
 def test_port_that_disappears_is_reopened_at_most_every_half_second(line):
