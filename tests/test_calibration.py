@@ -9,6 +9,7 @@ import numpy as np
 import pytest
 from hypothesis import assume, given, settings
 from hypothesis import strategies as st
+from rig_texts import MINIMAL_RIG, with_rig_lines
 
 from drivers.base import LineStatus, RawBatch
 from monitor.calibration import (
@@ -25,27 +26,7 @@ from monitor.errors import ConfigError, PhysicsError
 from monitor.physics.flow_units import standard_flow_to_mass_flow_kg_s
 from monitor.samples import Quality
 
-RIG_TEXT = """
-format = 1
-[rig]
-name = "t"
-kind = "stand"
-gas = "N2"
-ambient_pressure = "95 kPa abs"
-[tank]
-volume = "1 L"
-fill_pressure = "200 bar gauge"
-fill_temperature = "20 C"
-meop = "230 bar gauge"
-[regulator]
-set_pressure = "6 bar gauge"
-min_inlet_pressure = "10 bar gauge"
-[nozzle]
-throat_diameter = "1 mm"
-exit_diameter = "2 mm"
-[vehicle]
-dry_mass = "1 kg"
-"""
+RIG_TEXT = with_rig_lines(MINIMAL_RIG, 'ambient_pressure = "95 kPa abs"')
 RIG = parse_rig(RIG_TEXT, "test_rig.toml")
 AMBIENT_PA = 95_000.0  # as written in RIG_TEXT
 

@@ -1,31 +1,13 @@
 """Rig-file loading: the bundled rigs load, and every kind of mistake names its key, value and expectation."""
 
 import pytest
+from rig_texts import MINIMAL_RIG
 
 from monitor.config import load_rig, parse_rig
 from monitor.errors import ConfigError
 from monitor.rigs import bundled_rig_names, resolve_rig
 
-GOOD = """
-format = 1
-[rig]
-name = "t"
-kind = "stand"
-gas = "N2"
-[tank]
-volume = "1 L"
-fill_pressure = "200 bar gauge"
-fill_temperature = "20 C"
-meop = "230 bar gauge"
-[regulator]
-set_pressure = "6 bar gauge"
-min_inlet_pressure = "10 bar gauge"
-[nozzle]
-throat_diameter = "1 mm"
-exit_diameter = "2 mm"
-[vehicle]
-dry_mass = "1 kg"
-"""
+GOOD = MINIMAL_RIG
 
 
 def test_bundled_rigs_load():

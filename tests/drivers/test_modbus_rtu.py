@@ -24,6 +24,7 @@ from pymodbus.client import ModbusSerialClient
 from pymodbus.framer import FramerType
 from pymodbus.server import ModbusSerialServer
 from pymodbus.simulator import DataType, SimData, SimDevice
+from rig_texts import MINIMAL_RIG
 
 from drivers import DRIVERS, load_driver
 from drivers.base import LineStatus
@@ -235,26 +236,7 @@ def test_driver_is_registered():
     assert load_driver("modbus_rtu") is ModbusRtuDriver
 
 
-MINIMAL_RIG = """
-format = 1
-[rig]
-name = "t"
-kind = "stand"
-gas = "N2"
-[tank]
-volume = "1 L"
-fill_pressure = "200 bar gauge"
-fill_temperature = "20 C"
-meop = "230 bar gauge"
-[regulator]
-set_pressure = "6 bar gauge"
-min_inlet_pressure = "10 bar gauge"
-[nozzle]
-throat_diameter = "1 mm"
-exit_diameter = "2 mm"
-[vehicle]
-dry_mass = "1 kg"
-"""
+
 
 
 def test_from_rig_reads_source_and_port_overrides_it():

@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 import pytest
+from rig_texts import MINIMAL_RIG
 
 from monitor.config import parse_rig
 from monitor.errors import ConfigError
@@ -10,26 +11,7 @@ from monitor.estimators import EstimationSettings, parse_estimation
 from monitor.estimators.settings import DEFAULT_MASS_FLOW_LAG_S, DEFAULT_TEMPERATURE_LAG_S
 from monitor.units import G0_M_S2
 
-GOOD = """
-format = 1
-[rig]
-name = "t"
-kind = "stand"
-gas = "N2"
-[tank]
-volume = "1 L"
-fill_pressure = "200 bar gauge"
-fill_temperature = "20 C"
-meop = "230 bar gauge"
-[regulator]
-set_pressure = "6 bar gauge"
-min_inlet_pressure = "10 bar gauge"
-[nozzle]
-throat_diameter = "1 mm"
-exit_diameter = "2 mm"
-[vehicle]
-dry_mass = "1 kg"
-"""
+GOOD = MINIMAL_RIG
 
 
 def _settings(table: str) -> EstimationSettings:
