@@ -1,8 +1,9 @@
 """The serial text-line driver: reads a device that prints one line of numbers per sample over a serial link.
 
 Bytes are read in whole chunks (read(in_waiting or 1), never readline), stamped with the injected clock, cut
-into lines and read in batches by drivers.line_framing. A device that disappears is reported as a LinkEvent
-("lost") and reopened at most every RETRY_INTERVAL_S; read() raises only when the very first open fails.
+into lines (drivers.line_framing) and read in batches (drivers.line_parsing). A device that disappears is
+reported as a LinkEvent ("lost") and reopened at most every RETRY_INTERVAL_S; read() raises only when the very
+first open fails.
 """
 
 from __future__ import annotations
@@ -15,7 +16,9 @@ import numpy as np
 import serial
 
 from drivers.base import Driver, LineStatus, RawBatch
-from drivers.line_framing import FramedLines, LineFormat, LineSplitter, header_names, parse_lines, word_lines
+from drivers.line_format import LineFormat
+from drivers.line_framing import FramedLines, LineSplitter
+from drivers.line_parsing import header_names, parse_lines, word_lines
 from monitor.clock import Clock
 from monitor.errors import ConfigError, SourceError
 from monitor.samples import LinkEvent

@@ -16,7 +16,7 @@ from collections.abc import Callable
 import numpy as np
 from scipy.signal import lfilter
 
-from drivers.line_framing import LineFormat
+from drivers.line_format import LineFormat
 from drivers.sim_model import Truth
 from drivers.sim_scenario import Scenario, SensorSpec
 from monitor.calibration import ChannelSpec

@@ -15,7 +15,8 @@ from dataclasses import dataclass
 import numpy as np
 
 from drivers.base import Driver, RawBatch
-from drivers.line_framing import LineFormat, parse_lines
+from drivers.line_format import LineFormat
+from drivers.line_parsing import parse_lines
 from drivers.serial_lines import SerialLinesDriver, StreamWatch
 from drivers.sim_model import CHUNK_S, Truth, TruthModel, feed_tables
 from drivers.sim_scenario import Scenario, droop_set_points_pa, parse_simulation, set_point_pa, valve_open
@@ -165,7 +166,7 @@ class SimulatedDriver(Driver):
 
     Device time runs at `speed` times the injected clock from open(); each line is stamped with the clock
     time at which it came due, so a FakeClock makes a test instant and exact. Lines are read by
-    drivers.line_framing.parse_lines and checked by the serial driver's StreamWatch, so a link loss shows as
+    drivers.line_parsing.parse_lines and checked by the serial driver's StreamWatch, so a link loss shows as
     a sequence "gap" event exactly as over a serial port. After duration_s (if given) no more lines come and
     one "lost" event says so.
 

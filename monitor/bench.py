@@ -1,7 +1,7 @@
 """Benchmarks of the whole chain without a screen: throughput against a pandas floor, alert latency, memory.
 
 `ejecta bench` prints what these measure. The chain is the live one: bytes are cut into lines and parsed
-(drivers.line_framing), calibrated (monitor.calibration), estimated and judged for alerts (monitor.engine),
+(drivers.line_framing, drivers.line_parsing), calibrated (monitor.calibration), estimated and judged for alerts (monitor.engine),
 watched for link health and recorded to a run log in a temporary folder.
 """
 

@@ -12,7 +12,8 @@ import numpy as np
 import pytest
 
 from drivers.base import LineStatus
-from drivers.line_framing import LineSplitter, parse_lines
+from drivers.line_framing import LineSplitter
+from drivers.line_parsing import parse_lines
 from drivers.simulated import source_format
 from monitor.cli import main
 from monitor.config import load_rig

@@ -16,7 +16,9 @@ import numpy as np
 
 sys.path.insert(0, str(Path(__file__).resolve().parents[2]))
 
-from drivers.line_framing import FramedLines, LineFormat, LineSplitter, parse_lines  # noqa: E402
+from drivers.line_format import LineFormat  # noqa: E402
+from drivers.line_framing import FramedLines, LineSplitter  # noqa: E402
+from drivers.line_parsing import parse_lines  # noqa: E402
 from drivers.serial_lines import SerialLinesDriver  # noqa: E402
 from monitor.clock import MonotonicClock  # noqa: E402
 

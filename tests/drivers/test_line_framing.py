@@ -1,5 +1,6 @@
-"""Tests for drivers.line_framing and the pure parts of drivers.serial_lines: the [source] table, cutting a byte
-stream into lines, reading lines into numbers, header lines, and the stream checks (gaps, clock, garbage)."""
+"""Tests for drivers.line_format, line_framing and line_parsing, and the pure parts of drivers.serial_lines: the
+[source] table, cutting a byte stream into lines, reading lines into numbers, header lines, and the stream
+checks (gaps, clock, garbage)."""
 
 from __future__ import annotations
 
@@ -13,7 +14,9 @@ from hypothesis import given, settings
 from hypothesis import strategies as st
 
 from drivers.base import LineStatus, RawBatch
-from drivers.line_framing import FramedLines, LineFormat, LineSplitter, parse_lines, xor8
+from drivers.line_format import LineFormat
+from drivers.line_framing import FramedLines, LineSplitter, xor8
+from drivers.line_parsing import parse_lines
 from drivers.serial_lines import LineParser, StreamWatch
 from monitor.errors import ConfigError
 

@@ -17,7 +17,7 @@ import serial
 
 from drivers import load_driver
 from drivers.base import LineStatus
-from drivers.line_framing import LineFormat
+from drivers.line_format import LineFormat
 from drivers.serial_lines import SerialLinesDriver
 from monitor.clock import FakeClock, MonotonicClock
 from monitor.errors import ConfigError, SourceError

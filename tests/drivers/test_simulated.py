@@ -9,7 +9,7 @@ from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
 
 from drivers.base import LineStatus
-from drivers.line_framing import parse_lines
+from drivers.line_parsing import parse_lines
 from drivers.serial_lines import SerialLinesDriver
 from drivers.sim_scenario import valve_open
 from drivers.sim_sensors import decimals, inverse_calibration

@@ -6,7 +6,7 @@ from functools import lru_cache
 
 import numpy as np
 
-from drivers.line_framing import parse_lines
+from drivers.line_parsing import parse_lines
 from drivers.simulated import RigSimulator, source_format
 from monitor.calibration import Calibrator, parse_channels
 from monitor.config import load_rig, parse_rig

@@ -14,7 +14,7 @@ from pathlib import Path
 
 sys.path.insert(0, str(Path(__file__).resolve().parents[2]))
 
-from drivers.line_framing import parse_lines  # noqa: E402
+from drivers.line_parsing import parse_lines  # noqa: E402
 from drivers.simulated import RigSimulator, source_format  # noqa: E402
 from monitor.calibration import Calibrator, parse_channels  # noqa: E402
 from monitor.config import load_rig  # noqa: E402
