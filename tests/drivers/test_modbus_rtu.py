@@ -28,13 +28,8 @@ from rig_texts import MINIMAL_RIG
 
 from drivers import DRIVERS, load_driver
 from drivers.base import LineStatus
-from drivers.modbus_rtu import (
-    ModbusRtuConfig,
-    ModbusRtuDriver,
-    RegisterSpec,
-    decode_registers,
-    plan_requests,
-)
+from drivers.modbus_config import ModbusRtuConfig, RegisterSpec, decode_registers, plan_requests
+from drivers.modbus_rtu import ModbusRtuDriver
 from monitor.clock import FakeClock
 from monitor.config import parse_rig
 from monitor.errors import ConfigError, SourceError
