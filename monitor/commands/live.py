@@ -17,6 +17,7 @@ def run(args: argparse.Namespace) -> int:
     from monitor.commands.demo import MIN_STEP_S, TREND_SPAN_S
     from monitor.commands.record import default_log_path
     from monitor.config import load_rig
+    from monitor.engine import Engine
     from monitor.recorder.writer import RunLogWriter
     from monitor.rigs import resolve_rig
     from monitor.session import Session
@@ -26,6 +27,9 @@ def run(args: argparse.Namespace) -> int:
     rig = load_rig(resolve_rig(args.rig))
     clock = RunClock(MonotonicClock())
     source = open_live_source(rig, clock, args.port)
+    # Build the engine's property tables (CoolProp, about 1 to 3 s; cached for the session's own engine) and
+    # check the alert rules before the port opens: once it is open, nothing may keep it unread that long.
+    Engine(rig, source.channels)
     path = args.out or default_log_path(rig.source_path)
     path.parent.mkdir(parents=True, exist_ok=True)
     clock.restart()  # run time 0 is when the port opens, not when ejecta started loading
