@@ -160,7 +160,11 @@ class SlowEstimates:
         p, measured_t, feed_p, feed_t, flow = means
         up, ut_sensor = ph.std("tank_pressure", p), ph.std("tank_temperature", measured_t)
         # A first-order thermometer reads T - tau dT/dt: add tau dT/dt back (dT/dt from a short trailing fit).
-        slope = np.nan_to_num(self.temperature_fit(t_s, slot, measured_t[None, :])[0][0])
+        slope, _, points = self.temperature_fit(t_s, slot, measured_t[None, :])
+        # A slope from a nearly empty window (the first blocks of a run, or just after a dropout) is mostly the
+        # thermometer's noise, which the lag time would multiply: correct only once the window is half full.
+        half = (self.temperature_fit.blocks + 1) // 2
+        slope = np.where(points[0] >= half, np.nan_to_num(slope[0]), 0.0)
         correction = s.temperature_lag_s * slope
         temp = measured_t + correction
         ut = np.hypot(ut_sensor, LAG_RELATIVE_STD * correction)
