@@ -151,3 +151,28 @@ def test_projections_equal_the_rocket_equation(kind):
         assert s.hover_endurance_left_conservative_s < s.hover_endurance_left_s
     else:
         assert math.isnan(s.hover_endurance_left_s)
+
+
+def test_thermometer_noise_at_the_start_does_not_move_the_pvt_gauge():
+    """A tank at rest whose thermocouple reads with 0.05 K of noise: the lag correction (2 s here) must not turn
+    the first blocks' noise into a slope. The gauge stays on the true contents from the first block on."""
+    from estimator_helpers import CHANNELS, RIG
+
+    from monitor.calibration import parse_channels
+    from monitor.config import parse_rig
+
+    text = RIG.format(kind="stand", expansion="isothermal", estimation="", count=1, dry_mass="4 kg")
+    rig = parse_rig(text.replace('temperature_lag = "0 s"', 'temperature_lag = "2 s"') + CHANNELS, "lag.toml")
+    t = np.arange(3000) / RATE_HZ
+    temperature, pressure, volume = 293.15, 150e5, 1e-3
+    noisy = temperature + 0.05 * np.random.default_rng(11).standard_normal(t.size)  # invented noise level
+    whole = batch(t, p_tank=pressure, t_tank=noisy, p_feed=1.0e5, t_feed=temperature, flow=0.0, load=0.0, valve=0.0)
+    signals = feed(Estimator(rig, parse_channels(rig)), whole, 250)
+    gauge, std = signals.values["propellant_pvt_gauge_kg"], signals.std["propellant_pvt_gauge_kg"]
+    known = np.isfinite(gauge)
+    # True contents: CoolProp's density of nitrogen (Span et al. 2000) at the tank state, times the volume.
+    contents = float(density_kg_m3("nitrogen", pressure, temperature)) * volume
+    assert known[:100].any()
+    assert np.all(np.abs(gauge[known] - contents) <= 2.0 * std[known])
+    # 0.05 K of noise on 293 K is 0.02 % of the contents; a slope from two blocks times 2 s made it percent-sized.
+    assert np.max(np.abs(gauge[known] - contents)) < 1e-3 * contents
