@@ -51,6 +51,9 @@ def main(argv: Sequence[str] | None = None) -> int:
     if run is None:
         parser.print_help()
         return 2
+    from monitor.gas_memo import install_from_environment
+
+    install_from_environment()  # a rig's gas states kept between runs: a command run again starts without CoolProp
     try:
         return run(args)
     except MonitorError as exc:

@@ -23,6 +23,7 @@ import numpy as np
 from monitor.alerts import AlertEngine, AlertStatus, AlertTransition, rules_from_rig, write_transitions
 from monitor.config import Rig
 from monitor.estimators import EstimateState, Estimator
+from monitor.physics.gas import cacheable
 from monitor.samples import Batch, Quality, SourceReading
 from monitor.signals import Signals
 
@@ -99,8 +100,9 @@ class Engine:
     def __init__(self, rig: Rig, channels: tuple, writer=None, trend_names: tuple[str, ...] | None = None):
         self.rig = rig
         self.channels = tuple(channels)
-        self.estimator = Estimator(rig, self.channels)
-        self.alerts = AlertEngine(rules_from_rig(rig, self.channels))
+        with cacheable():  # the rig's setup: kept between runs when a store is installed (monitor.gas_memo)
+            self.estimator = Estimator(rig, self.channels)
+            self.alerts = AlertEngine(rules_from_rig(rig, self.channels))
         self.writer = writer
         self.timeline: deque[AlertTransition] = deque(maxlen=TIMELINE_KEPT)
         self.transition_count = 0

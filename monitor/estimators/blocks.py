@@ -18,6 +18,7 @@ from monitor.estimators.propellant import LeakDetector, WindowFits, density_sens
 from monitor.estimators.settings import EstimationSettings
 from monitor.estimators.tables import gas_tables, nozzle_tables, usable_density_table
 from monitor.estimators.thrust import NozzleModel
+from monitor.physics.gas import cacheable
 from monitor.physics.uncertainty import Measured
 from monitor.predict import feed_system
 
@@ -35,6 +36,10 @@ class RigPhysics:
     """The rig's constants, property tables, nozzle model and projection, built once per Estimator."""
 
     def __init__(self, rig: Rig, settings: EstimationSettings, specs: dict[str, ChannelSpec]):
+        with cacheable():  # the rig's setup: kept between runs when a store is installed (monitor.gas_memo)
+            self._build(rig, settings, specs)
+
+    def _build(self, rig: Rig, settings: EstimationSettings, specs: dict[str, ChannelSpec]) -> None:
         self.specs, self.settings = specs, settings
         tank = rig.tank
         high = max(tank.meop_pa, tank.fill_pressure_pa)

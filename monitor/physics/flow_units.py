@@ -17,7 +17,7 @@ from functools import lru_cache
 import numpy as np
 
 from monitor.errors import PhysicsError
-from monitor.physics.gas import GasModelName, canonical_gas, density_kg_m3
+from monitor.physics.gas import GasModelName, cacheable, canonical_gas, density_kg_m3
 from monitor.units import CELSIUS_OFFSET_K, Q_, STANDARD_ATMOSPHERE_PA
 
 
@@ -172,7 +172,8 @@ def _resolve_reference(unit: str, reference: str | ReferenceCondition | None) ->
 
 @lru_cache(maxsize=256)
 def _density_at(gas: str, temperature_k: float, pressure_pa: float, model: str) -> float:
-    return float(density_kg_m3(gas, pressure_pa, temperature_k, model))  # type: ignore[arg-type]
+    with cacheable():  # a rig's reference densities: kept between runs when a store is installed
+        return float(density_kg_m3(gas, pressure_pa, temperature_k, model))  # type: ignore[arg-type]
 
 
 def standard_density_kg_m3(

@@ -11,9 +11,11 @@ A state outside a model's range, or a liquid or two-phase state, raises PhysicsE
 
 from __future__ import annotations
 
+import contextlib
+import contextvars
 from dataclasses import dataclass
 from functools import lru_cache
-from typing import Literal
+from typing import Callable, Iterator, Literal, Protocol
 
 import numpy as np
 
@@ -57,6 +59,39 @@ def canonical_gas(name: str) -> str:
     return key
 
 
+class StateStore(Protocol):
+    """Where results of a rig's setup calls may be kept between runs (injected at the edge: monitor.gas_memo)."""
+
+    def recall(self, kind: str, parts: tuple, compute: Callable[[], dict[str, np.ndarray]]) -> dict[str, np.ndarray]:
+        """compute()'s arrays, or the ones stored for the same kind and parts."""
+
+
+_store: StateStore | None = None
+_cacheable: contextvars.ContextVar[bool] = contextvars.ContextVar("ejecta_cacheable_gas_calls", default=False)
+
+
+def install_store(store: StateStore | None) -> StateStore | None:
+    """Use store for the calls made inside cacheable() (None: compute every call); returns the one before."""
+    global _store
+    previous, _store = _store, store
+    return previous
+
+
+@contextlib.contextmanager
+def cacheable() -> Iterator[None]:
+    """Mark the gas calls made within as a rig's setup: deterministic, few, worth keeping between runs."""
+    token = _cacheable.set(True)
+    try:
+        yield
+    finally:
+        _cacheable.reset(token)
+
+
+def _recall(kind: str, parts: tuple, compute: Callable[[], dict[str, np.ndarray]]) -> dict[str, np.ndarray]:
+    store = _store if _cacheable.get() else None
+    return compute() if store is None else store.recall(kind, parts, compute)
+
+
 def _check_model(model: str) -> None:
     if model not in _MODELS:
         raise PhysicsError(f"unknown gas model {model!r}: expected 'real' or 'ideal'")
@@ -73,7 +108,8 @@ def _cp():
 @lru_cache(maxsize=None)
 def molar_mass_kg_mol(gas: str) -> float:
     """Molar mass of the gas, kg/mol (from the equation of state's fluid file)."""
-    return float(_cp().PropsSI("M", _COOLPROP_NAMES[canonical_gas(gas)]))
+    fluid = _COOLPROP_NAMES[canonical_gas(gas)]
+    return float(_recall("molar_mass", (fluid,), lambda: {"value": np.array(_cp().PropsSI("M", fluid))})["value"])
 
 
 def specific_gas_constant_j_kg_k(gas: str) -> float:
@@ -85,7 +121,8 @@ def specific_gas_constant_j_kg_k(gas: str) -> float:
 def ideal_gamma(gas: str) -> float:
     """Ratio of ideal-gas heat capacities cp0/cv0 at 298.15 K (dimensionless)."""
     fluid = _COOLPROP_NAMES[canonical_gas(gas)]
-    cp0 = float(_cp().PropsSI("Cp0mass", "T", _IDEAL_REFERENCE_T_K, "P", _IDEAL_REFERENCE_P_PA, fluid))
+    cp0 = float(_recall("ideal_cp", (fluid, _IDEAL_REFERENCE_T_K, _IDEAL_REFERENCE_P_PA), lambda: {"value": np.array(
+        _cp().PropsSI("Cp0mass", "T", _IDEAL_REFERENCE_T_K, "P", _IDEAL_REFERENCE_P_PA, fluid))})["value"])
     return cp0 / (cp0 - specific_gas_constant_j_kg_k(gas))
 
 
@@ -149,7 +186,21 @@ def gas_state(gas: str, model: GasModelName = "real", **inputs: object) -> GasSt
             raise PhysicsError(f"{gas}: {name} must be positive, got {arr}")
     if model == "ideal":
         return _ideal_state(gas, names, a, b)
-    return _real_state(gas, pair, a, b)
+    if _store is None or not _cacheable.get():
+        return _real_state(gas, pair, a, b)
+    stored = _store.recall("gas_state", (gas, pair, a, b), lambda: _state_or_error(gas, pair, a, b))
+    if "error" in stored:
+        raise PhysicsError(str(stored["error"]))
+    return GasState(*(stored[name] for name in GasState.__dataclass_fields__))
+
+
+def _state_or_error(gas: str, pair: tuple[str, str], a: np.ndarray, b: np.ndarray) -> dict[str, np.ndarray]:
+    """_real_state's fields as arrays, or its PhysicsError's message as "error" (for the memo)."""
+    try:
+        state = _real_state(gas, pair, a, b)
+    except PhysicsError as exc:
+        return {"error": np.array(str(exc))}
+    return {name: np.asarray(getattr(state, name)) for name in GasState.__dataclass_fields__}
 
 
 @lru_cache(maxsize=None)
