@@ -2,4 +2,5 @@
 
 from monitor.cli import main
 
-raise SystemExit(main())
+if __name__ == "__main__":  # not when a spawned helper process imports this module (monitor.sources.log_stream)
+    raise SystemExit(main())
