@@ -153,10 +153,11 @@ def std_uncertainty(spec: ChannelSpec, values_si: np.ndarray) -> np.ndarray:
             f"channel {spec.name!r}: accuracy = None: expected an accuracy table in its [[channels]] entry to give an uncertainty"
         )
     values = np.asarray(values_si, dtype=float)
-    out = np.full(values.shape, np.nan)
     good = np.isfinite(values)
     a = spec.accuracy
-    out[good] = sensor_std_uncertainty(
-        values[good] - spec.si_offset, a.percent_of_reading, a.percent_of_full_scale, a.full_scale, a.absolute, a.distribution
-    )  # type: ignore[arg-type]
+    terms = (a.percent_of_reading, a.percent_of_full_scale, a.full_scale, a.absolute, a.distribution)
+    if good.all():  # the usual case: no gather and scatter of the good samples
+        return sensor_std_uncertainty(values - spec.si_offset, *terms)  # type: ignore[arg-type]
+    out = np.full(values.shape, np.nan)
+    out[good] = sensor_std_uncertainty(values[good] - spec.si_offset, *terms)  # type: ignore[arg-type]
     return out

@@ -146,19 +146,19 @@ class Collector:
 
     def _buckets(self, t, v, thrusts) -> None:
         n = t.size
-        columns = []
-        for name in self.plotted:
-            if name.startswith("predicted_"):
-                columns.append(self._predicted(name, v, n))
-            else:
-                columns.append(np.asarray(v.get(name, np.full(n, np.nan)), dtype=float))
-        values = np.vstack(columns)
         b = np.clip(((t - self.t0_s) / self.bucket_s).astype(np.int64), 0, PLOT_BUCKETS)
         starts = np.flatnonzero(np.concatenate([[True], np.diff(b) != 0]))
         ids = b[starts]
-        finite = np.isfinite(values)
-        self.sums[:, ids] += np.add.reduceat(np.where(finite, values, 0.0), starts, axis=1)
-        self.counts[:, ids] += np.add.reduceat(finite, starts, axis=1)
+        for row, name in enumerate(self.plotted):  # one signal at a time: no stacked copy of the batch
+            if name.startswith("predicted_"):
+                values = self._predicted(name, v, n)
+            elif name in v:
+                values = np.asarray(v[name], dtype=float)
+            else:
+                continue  # a signal this rig does not have: its buckets stay empty
+            finite = np.isfinite(values)
+            self.sums[row, ids] += np.add.reduceat(np.where(finite, values, 0.0), starts)
+            self.counts[row, ids] += np.add.reduceat(finite, starts)
         with _quiet():
             self.maxima[:, ids] = np.fmax(self.maxima[:, ids], np.fmax.reduceat(thrusts, starts, axis=1))
 
