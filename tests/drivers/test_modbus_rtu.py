@@ -423,8 +423,18 @@ scale = 0.01
 """
 
 
-def _config(port: str, extra_registers: str = "", rate: str = "20 Hz") -> ModbusRtuConfig:
-    text = f"""
+# A register the test device does not have: every read of it gets exception 02 (illegal data address).
+NOWHERE_REGISTER = """
+[[source.registers]]
+field = "nowhere"
+unit_id = 1
+address = 300
+type = "uint16"
+"""
+
+
+def _source_text(port: str, extra_registers: str = "", rate: str = "20 Hz") -> str:
+    return f"""
 [source]
 driver = "modbus_rtu"
 port = "{port}"
@@ -434,22 +444,16 @@ poll_rate = "{rate}"
 timeout = "0.1 s"
 {RIG_REGISTERS}{extra_registers}
 """
+
+
+def _config(port: str, extra_registers: str = "", rate: str = "20 Hz") -> ModbusRtuConfig:
+    text = _source_text(port, extra_registers, rate)
     return ModbusRtuConfig.from_source_table(tomllib.loads(text)["source"], "rig.toml")
 
 
 def _rig_text(port: str, extra_registers: str = "") -> str:
-    """A whole rig reading _config's registers: tank pressure from P_tank, and a channel `spare` from a
-    register named `nowhere` when extra_registers lists one."""
-    source = f"""
-[source]
-driver = "modbus_rtu"
-port = "{port}"
-baud = 19200
-parity = "even"
-poll_rate = "20 Hz"
-timeout = "0.1 s"
-{RIG_REGISTERS}{extra_registers}
-"""
+    """A whole rig reading _config's registers: tank pressure from P_tank, and a channel `spare` from the
+    register named `nowhere` when extra_registers lists it."""
     channels = """
 [[channels]]
 name = "tank_pressure"
@@ -466,7 +470,7 @@ field = "nowhere"
 unit = "1"
 calibration = { kind = "identity" }
 """
-    return MINIMAL_RIG + source + channels
+    return MINIMAL_RIG + _source_text(port, extra_registers) + channels
 
 
 @pytest.fixture
@@ -568,14 +572,7 @@ def test_corrupted_answer_is_counted_not_raised(line):
 
 def test_a_unit_that_always_refuses_leaves_the_other_fields_flowing(line):
     cable, _slave = line
-    missing = """
-[[source.registers]]
-field = "nowhere"
-unit_id = 1
-address = 300
-type = "uint16"
-"""
-    config = _config(str(cable.link), missing)
+    config = _config(str(cable.link), NOWHERE_REGISTER)
     with ModbusRtuDriver(config, FakeClock(0.0)) as driver:
         batches: list = []
         _, lines, status, values, events = _read_rows(driver, 3, batches=batches)
@@ -597,14 +594,7 @@ def test_a_missing_field_calibrates_to_missing_and_the_rest_to_values(line):
     from monitor.sources.live import LiveSource
 
     cable, _slave = line
-    extra = """
-[[source.registers]]
-field = "nowhere"
-unit_id = 1
-address = 300
-type = "uint16"
-"""
-    rig = parse_rig(_rig_text(str(cable.link), extra), "rig.toml")
+    rig = parse_rig(_rig_text(str(cable.link), NOWHERE_REGISTER), "rig.toml")
     driver = ModbusRtuDriver.from_rig(rig, FakeClock(0.0))
     channels = parse_channels(rig, driver.fields)
     source = LiveSource(driver, Calibrator(channels, driver.fields), rig.text)
