@@ -55,7 +55,7 @@ def review_log(path: str | Path, with_prediction: bool = False, batch_rows: int 
     log = RunLog.open(path)
     warnings = list(log.warnings)
     try:
-        return _review(path, log, path, warnings, with_prediction, batch_rows)
+        return _review(path, log, warnings, with_prediction, batch_rows)
     except LogFormatError:
         damage = find_damage(log)  # only a damaged log pays for the search
         if damage is None:
@@ -67,10 +67,10 @@ def review_log(path: str | Path, with_prediction: bool = False, batch_rows: int 
     with tempfile.TemporaryDirectory(prefix="ejecta-review-") as folder:
         good = Path(folder) / path.name
         copy_before(path, damage.offset, good)
-        return _review(path, RunLog.open(good), good, warnings, with_prediction, batch_rows)
+        return _review(path, RunLog.open(good), warnings, with_prediction, batch_rows)
 
 
-def _review(shown: Path, log: RunLog, path: Path, warnings, with_prediction, batch_rows) -> Review:
+def _review(shown: Path, log: RunLog, warnings, with_prediction, batch_rows) -> Review:
     rig = parse_rig(log.header.rig_text, f"{shown} (the rig file in its header)")
     source = LogStream(log, chunk_rows=batch_rows)
     channels = rig_channel_specs(rig, source.channels, shown)
