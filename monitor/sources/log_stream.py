@@ -1,7 +1,8 @@
 """A run log read front to back in chunks, the next chunk parsed on a background thread: the review's source.
 
-Memory stays bounded by a few chunks whatever the log's length, and the parsing (pandas' C reader, which
-releases the GIL while it tokenises) overlaps with the engine working on the chunk before.
+Memory stays bounded by a few chunks whatever the log's length, and the parsing partly overlaps with the
+engine working on the chunk before (partly: pandas' C reader holds the GIL for much of its work, so the two
+threads also take turns; docs/review.md has the measurements).
 """
 
 from __future__ import annotations
